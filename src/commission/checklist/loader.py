@@ -1,0 +1,263 @@
+"""Load and validate a checklist, with problems that name file, line and item.
+
+Every problem is reported, not just the first: ``FILE:LINE: ITEM-ID: message``,
+with ``-`` where a problem belongs to no item. YAML is read with the safe loader
+(no object construction).
+"""
+
+from __future__ import annotations
+
+import hashlib
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+import yaml
+
+from ..errors import UserError
+from .model import Checklist, Item
+
+
+@dataclass(frozen=True)
+class Problem:
+    file: str
+    line: int
+    item: str
+    message: str
+
+    def __str__(self) -> str:
+        return f"{self.file}:{self.line}: {self.item}: {self.message}"
+
+
+class ChecklistError(UserError):
+    def __init__(self, problems: list[Problem]):
+        self.problems = problems
+        super().__init__("\n".join(str(p) for p in problems))
+
+
+@dataclass(frozen=True)
+class Loaded:
+    checklist: Checklist
+    text: str
+    sha256: str
+    name: str
+
+
+Path_ = tuple[Any, ...]
+
+
+class _Tree:
+    """Plain Python data from YAML nodes, remembering the line of every path."""
+
+    def __init__(self) -> None:
+        self.lines: dict[Path_, int] = {}
+        self.duplicates: list[tuple[Path_, str, int]] = []
+        self._constructor = yaml.SafeLoader("")
+
+    def build(self, node: yaml.Node, path: Path_ = ()) -> Any:
+        self.lines[path] = node.start_mark.line + 1
+        if isinstance(node, yaml.MappingNode):
+            out: dict[Any, Any] = {}
+            for key_node, value_node in node.value:
+                key = self._constructor.construct_object(key_node, deep=True)
+                if not isinstance(key, str | int | float | bool) or key is None:
+                    key = str(key)
+                if key in out:
+                    self.duplicates.append((path, str(key), key_node.start_mark.line + 1))
+                self.lines[(*path, key)] = key_node.start_mark.line + 1
+                out[key] = self.build(value_node, (*path, key))
+                self.lines[(*path, key)] = key_node.start_mark.line + 1
+            return out
+        if isinstance(node, yaml.SequenceNode):
+            return [self.build(child, (*path, n)) for n, child in enumerate(node.value)]
+        return self._constructor.construct_object(node, deep=True)
+
+    def line(self, path: Path_) -> int:
+        path = tuple(path)
+        while path and path not in self.lines:
+            path = path[:-1]
+        return self.lines.get(path, 1)
+
+
+def _item_id(data: Any, path: Path_) -> str:
+    """The id of the item a path points into, or '-'."""
+    if len(path) >= 4 and path[0] == "sections" and path[2] == "items":
+        try:
+            item_id = data["sections"][path[1]]["items"][path[3]].get("id")
+        except (KeyError, IndexError, TypeError, AttributeError):
+            return "-"
+        return str(item_id) if item_id else f"(item {path[3] + 1} of section {path[1] + 1})"
+    return "-"
+
+
+def _message(err: dict[str, Any]) -> str:
+    loc = [str(p) for p in err["loc"] if not isinstance(p, int)]
+    field = loc[-1] if loc else ""
+    kind = err["type"]
+    if kind == "extra_forbidden":
+        return f"unknown key '{field}'"
+    if kind == "missing":
+        return f"missing key '{field}'"
+    if kind == "literal_error" and field == "kind":
+        return f"unknown kind {err.get('input')!r} (accepted: confirm, reading, choice, text, file, photo)"
+    msg = err["msg"].removeprefix("Value error, ")
+    if field and field not in ("items", "sections"):
+        given = err.get("input")
+        shown = f" (got {given!r})" if isinstance(given, str | int | float | bool) else ""
+        return f"{field}: {msg}{shown}"
+    return msg
+
+
+def parse(text: str, name: str) -> Loaded:
+    """Validate checklist text; raise ChecklistError listing every problem."""
+    from pydantic import ValidationError
+
+    problems: list[Problem] = []
+    try:
+        root = yaml.compose(text, Loader=yaml.SafeLoader)
+    except yaml.YAMLError as exc:
+        mark = getattr(exc, "problem_mark", None) or getattr(exc, "context_mark", None)
+        line = mark.line + 1 if mark else 1
+        what = getattr(exc, "problem", None) or str(exc).splitlines()[0]
+        raise ChecklistError([Problem(name, line, "-", f"YAML syntax: {what}")]) from None
+    if root is None:
+        raise ChecklistError([Problem(name, 1, "-", "empty file: a checklist needs id, title, "
+                                      "version, rules and sections")])
+    tree = _Tree()
+    try:
+        data = tree.build(root)
+    except yaml.YAMLError as exc:
+        raise ChecklistError([Problem(name, 1, "-", f"YAML: {exc}")]) from None
+    if not isinstance(data, dict):
+        raise ChecklistError([Problem(name, 1, "-", "a checklist is a mapping with id, title, "
+                                      "version, rules and sections")])
+    for path, key, line in tree.duplicates:
+        problems.append(Problem(name, line, _item_id(data, path), f"duplicate key '{key}'"))
+
+    try:
+        checklist = Checklist.model_validate(data)
+    except ValidationError as exc:
+        for err in exc.errors():
+            loc = tuple(err["loc"])
+            problems.append(Problem(name, tree.line(loc), _item_id(data, loc), _message(err)))
+        problems.sort(key=lambda p: p.line)
+        raise ChecklistError(problems) from None
+
+    problems += _cross_check(checklist, tree, name)
+    if problems:
+        problems.sort(key=lambda p: p.line)
+        raise ChecklistError(problems)
+    digest = hashlib.sha256(text.encode("utf-8")).hexdigest()
+    return Loaded(checklist, text, digest, name)
+
+
+def _cross_check(checklist: Checklist, tree: _Tree, name: str) -> list[Problem]:
+    """What pydantic cannot see: ids, references between items, check signatures."""
+    problems: list[Problem] = []
+    seen: dict[str, int] = {}
+    positions: dict[str, Path_] = {}
+    for s_n, section in enumerate(checklist.sections):
+        for i_n, item in enumerate(section.items):
+            path = ("sections", s_n, "items", i_n)
+            if item.id in seen:
+                problems.append(Problem(name, tree.line((*path, "id")), item.id,
+                                        f"duplicate id (first at line {seen[item.id]})"))
+            else:
+                seen[item.id] = tree.line((*path, "id"))
+                positions[item.id] = path
+    items = {i.id: i for _, i in checklist.items()}
+    order = [i.id for _, i in checklist.items()]
+
+    for item_id, path in positions.items():
+        item = items[item_id]
+
+        def add(subpath: Path_, message: str, _path: Path_ = path, _id: str = item_id) -> None:
+            problems.append(Problem(name, tree.line((*_path, *subpath)), _id, message))
+
+        if item.when is not None:
+            target = items.get(item.when.item)
+            if target is None:
+                add(("when", "item"), f"condition on missing item '{item.when.item}'")
+            elif target.kind not in ("confirm", "choice"):
+                add(("when", "item"), f"condition on '{target.id}', a {target.kind} item: "
+                    "conditions need a confirm or choice item")
+            else:
+                allowed = target.options if target.kind == "choice" else ["yes", "no"]
+                for value in item.when.accepts():
+                    if value not in (allowed or []):
+                        add(("when",), f"condition value '{value}' is not an answer of "
+                            f"'{target.id}' (accepted: {', '.join(allowed or [])})")
+                if order.index(target.id) > order.index(item_id):
+                    add(("when", "item"), f"condition on '{target.id}', which comes later in "
+                        "the walk: move it before this item")
+        if item.check is not None:
+            add_check_problems(item, items, add)
+    return problems
+
+
+def add_check_problems(item: Item, items: dict[str, Item], add) -> None:
+    from ..checks import CHECKS
+
+    spec = item.check
+    assert spec is not None
+    definition = CHECKS.get(spec.name)
+    if definition is None:
+        add(("check", "name"), f"unknown check '{spec.name}' (known: {', '.join(sorted(CHECKS))})")
+        return
+    if item.kind not in definition.kinds:
+        add(("check", "name"), f"check '{spec.name}' cannot sit on a {item.kind} item "
+            f"(accepted: {', '.join(definition.kinds)})")
+    elif item.kind == "reading" and definition.quantities and \
+            item.quantity not in definition.quantities:
+        add(("check", "name"), f"check '{spec.name}' reads a {' or '.join(definition.quantities)}"
+            f", not a {item.quantity}")
+    for key, value in spec.inputs.items():
+        if key not in definition.inputs:
+            add(("check", "inputs", key), f"check '{spec.name}' has no input '{key}' "
+                f"(accepted: {', '.join(definition.inputs) or 'none'})")
+            continue
+        if isinstance(value, str):
+            if value not in items:
+                add(("check", "inputs", key), f"check input '{key}' names missing item "
+                    f"'{value}' (write {{const: {value}}} for a text constant)")
+            elif value == item.id:
+                add(("check", "inputs", key), f"check input '{key}' names the item itself")
+        elif isinstance(value, dict):
+            if set(value) != {"const"}:
+                add(("check", "inputs", key), f"check input '{key}': a mapping must be "
+                    "{const: VALUE}")
+        elif not isinstance(value, int | float | bool):
+            add(("check", "inputs", key), f"check input '{key}': an item id or a constant")
+    for key, spec_input in definition.inputs.items():
+        if spec_input.required and key not in spec.inputs:
+            add(("check", "inputs"), f"check '{spec.name}' needs input '{key}' "
+                f"({spec_input.doc})")
+    for key, value in spec.params.items():
+        if key not in definition.params:
+            add(("check", "params", key), f"check '{spec.name}' has no parameter '{key}' "
+                f"(accepted: {', '.join(definition.params) or 'none'})")
+            continue
+        default = definition.params[key].default
+        if isinstance(default, str):
+            if not isinstance(value, str):
+                add(("check", "params", key), f"parameter '{key}' must be text, got {value!r}")
+        elif value is not None and (isinstance(value, bool) or not isinstance(value, int | float)):
+            add(("check", "params", key), f"parameter '{key}' must be a number, got {value!r}")
+
+def load(path: str | Path) -> Loaded:
+    """Read and validate a checklist file."""
+    p = Path(path)
+    try:
+        raw = p.read_bytes()
+    except FileNotFoundError:
+        raise UserError(f"{p}: no such file") from None
+    except IsADirectoryError:
+        raise UserError(f"{p}: is a folder, not a checklist file") from None
+    except OSError as exc:
+        raise UserError(f"{p}: cannot read ({exc.strerror})") from None
+    try:
+        text = raw.decode("utf-8")
+    except UnicodeDecodeError as exc:
+        raise ChecklistError([Problem(str(p), raw[: exc.start].count(b"\n") + 1, "-",
+                                      "not UTF-8 text")]) from None
+    return parse(text, str(p))

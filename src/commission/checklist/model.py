@@ -1,0 +1,212 @@
+"""The checklist format: a YAML file of sections and items, validated with pydantic.
+
+Our own format, described by ``commission checklists schema``::
+
+    format: commission-checklist/1
+    id: diverter-1ph
+    title: Surplus diverter, single phase
+    version: 1.0.0
+    rules: {name: ..., notes: ...}     # the local-rules profile it assumes
+    sections:
+      - id: supply
+        title: Supply
+        items:
+          - id: supply.voltage
+            kind: reading              # confirm | reading | choice | text | file | photo
+            quantity: voltage
+            unit: V
+            prompt: Supply voltage at the origin, L–N
+            help: How to take it safely, and the test conditions.
+            critical: true
+            check: {name: supply_voltage, inputs: {}, params: {nominal_v: 230}}
+            when: {item: supply.earthing, in: [TT]}
+"""
+
+from __future__ import annotations
+
+import re
+from typing import Any, Literal
+
+from pydantic import BaseModel, ConfigDict, Field, field_validator, model_validator
+
+FORMAT = "commission-checklist/1"
+KINDS = ("confirm", "reading", "choice", "text", "file", "photo")
+ID_PATTERN = r"^[a-z][a-z0-9_-]*(\.[a-z0-9_-]+)*$"
+
+
+def _word(value: Any) -> Any:
+    """YAML 1.1 reads yes/no/on/off as booleans; a checklist means the words."""
+    if isinstance(value, bool):
+        return "yes" if value else "no"
+    if isinstance(value, int | float):
+        return str(value)
+    return value
+
+
+class Strict(BaseModel):
+    model_config = ConfigDict(extra="forbid", frozen=True)
+
+
+class Accept(Strict):
+    """Plausible range of a reading, in the item's unit (typing errors are refused)."""
+
+    min: float | None = None
+    max: float | None = None
+
+
+class CheckSpec(Strict):
+    name: str = Field(description="a registered check (see DEVELOPERS.md)")
+    inputs: dict[str, Any] = Field(
+        default_factory=dict,
+        description="input name → an item id (a string) or a constant (a number, or "
+        "{const: VALUE} for a text constant)",
+    )
+    params: dict[str, Any] = Field(
+        default_factory=dict, description="limits and settings that replace the defaults"
+    )
+
+
+class Condition(Strict):
+    """The item applies only when another item has one of these answers."""
+
+    item: str
+    is_: str | None = Field(default=None, alias="is")
+    in_: list[str] | None = Field(default=None, alias="in")
+
+    model_config = ConfigDict(extra="forbid", frozen=True, populate_by_name=True)
+
+    @field_validator("is_", mode="before")
+    @classmethod
+    def _is_word(cls, v: Any) -> Any:
+        return _word(v)
+
+    @field_validator("in_", mode="before")
+    @classmethod
+    def _in_words(cls, v: Any) -> Any:
+        return [_word(x) for x in v] if isinstance(v, list) else v
+
+    @model_validator(mode="after")
+    def _one_of(self) -> Condition:
+        if (self.is_ is None) == (self.in_ is None):
+            raise ValueError("a condition needs exactly one of 'is' or 'in'")
+        return self
+
+    def accepts(self) -> list[str]:
+        return [self.is_] if self.is_ is not None else list(self.in_ or [])
+
+    def text(self) -> str:
+        return f"{self.item} is {' or '.join(self.accepts())}"
+
+
+class Item(Strict):
+    id: str = Field(pattern=ID_PATTERN, description="stable dotted id, e.g. supply.voltage")
+    kind: Literal["confirm", "reading", "choice", "text", "file", "photo"]
+    prompt: str = Field(min_length=1)
+    help: str = ""
+    critical: bool = False
+    source: str | None = Field(
+        default=None, description="where the requirement comes from (standard, clause)"
+    )
+    quantity: str | None = Field(default=None, description="reading items: what is measured")
+    unit: str | None = Field(default=None, description="reading items: unit of a bare number")
+    accept: Accept | None = None
+    options: list[str] | None = Field(default=None, description="choice items")
+    pass_answer: Literal["yes", "no"] = Field(
+        default="yes", description="confirm items: the answer that passes"
+    )
+    check: CheckSpec | None = None
+    when: Condition | None = None
+
+    @field_validator("options", mode="before")
+    @classmethod
+    def _options_words(cls, v: Any) -> Any:
+        return [_word(x) for x in v] if isinstance(v, list) else v
+
+    @field_validator("pass_answer", mode="before")
+    @classmethod
+    def _pass_word(cls, v: Any) -> Any:
+        return _word(v)
+
+    @model_validator(mode="after")
+    def _kind_fields(self) -> Item:
+        from ..units import QUANTITIES, unit_fits
+
+        if self.kind == "reading":
+            if not self.quantity or not self.unit:
+                raise ValueError("a reading needs 'quantity' and 'unit'")
+            if self.quantity not in QUANTITIES:
+                raise ValueError(
+                    f"unknown quantity '{self.quantity}' (accepted: {', '.join(QUANTITIES)})"
+                )
+            if not unit_fits(self.unit, self.quantity):
+                raise ValueError(f"unit '{self.unit}' is not a unit of {self.quantity}")
+        else:
+            for key in ("quantity", "unit", "accept"):
+                if getattr(self, key) is not None:
+                    raise ValueError(f"'{key}' belongs to reading items only")
+        if self.kind == "choice":
+            if not self.options or len(self.options) < 2:
+                raise ValueError("a choice needs at least two 'options'")
+            if len({o.lower() for o in self.options}) != len(self.options):
+                raise ValueError("options must differ (case is ignored)")
+        elif self.options is not None:
+            raise ValueError("'options' belong to choice items only")
+        return self
+
+
+class Section(Strict):
+    id: str = Field(pattern=r"^[a-z][a-z0-9_-]*$")
+    title: str
+    intro: str = ""
+    items: list[Item] = Field(min_length=1)
+
+
+class RulesProfile(Strict):
+    name: str = Field(description="the local wiring rules this checklist assumes")
+    notes: str = ""
+
+
+class Checklist(Strict):
+    format: Literal["commission-checklist/1"] = FORMAT
+    id: str = Field(pattern=ID_PATTERN)
+    title: str
+    version: str
+    rules: RulesProfile
+    cautions: list[str] = Field(default_factory=list)
+    sections: list[Section] = Field(min_length=1)
+
+    @field_validator("version", mode="before")
+    @classmethod
+    def _version_text(cls, v: Any) -> Any:
+        return str(v) if isinstance(v, int | float) else v
+
+    def items(self) -> list[tuple[Section, Item]]:
+        """Every item in walk order with its section."""
+        return [(s, i) for s in self.sections for i in s.items]
+
+    def item(self, item_id: str) -> Item:
+        for _, i in self.items():
+            if i.id == item_id:
+                return i
+        raise KeyError(item_id)
+
+    def section_of(self, item_id: str) -> Section:
+        for s, i in self.items():
+            if i.id == item_id:
+                return s
+        raise KeyError(item_id)
+
+
+def json_schema() -> dict[str, Any]:
+    schema = Checklist.model_json_schema(by_alias=True)
+    schema["$schema"] = "https://json-schema.org/draft/2020-12/schema"
+    schema["title"] = "commission checklist"
+    return schema
+
+
+_REF = re.compile(ID_PATTERN)
+
+
+def is_ref(value: Any) -> bool:
+    """A check input that is a string names an item; anything else is a constant."""
+    return isinstance(value, str) and bool(_REF.match(value))

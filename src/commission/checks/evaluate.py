@@ -1,0 +1,218 @@
+"""Verdicts for every item of a job: a pure function of the checklist and entries.
+
+Nothing here is stored: the register keeps the raw entries, and this module
+derives the verdicts from them, the same way for the walk, ``show``, the record
+and its verification.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterable
+from dataclasses import dataclass, field
+from typing import Any
+
+from ..checklist.model import Checklist, Item
+from ..register.store import Entry, Instrument
+from .registry import (
+    CHECKS,
+    FAIL,
+    NA,
+    PASS,
+    PENDING,
+    REVIEW,
+    Context,
+    Expected,
+    Measured,
+    MissingInput,
+    Outcome,
+    worst,
+)
+
+READY, NOT_READY, INCOMPLETE = "ready", "not-ready", "incomplete"
+
+
+@dataclass
+class Result:
+    item: Item
+    section: str
+    entry: Entry | None
+    verdict: str
+    reason: str
+    source: str
+    measured: Measured | None = None
+    expected: Expected | None = None
+    history: list[Entry] = field(default_factory=list)
+    applicable: bool = True
+    section_title: str = ""
+
+    @property
+    def answered(self) -> bool:
+        return self.entry is not None and self.entry.action == "answer"
+
+    @property
+    def skipped(self) -> bool:
+        return self.entry is not None and self.entry.action == "skip"
+
+
+def current_entries(entries: Iterable[Entry]) -> tuple[dict[str, Entry], dict[str, list[Entry]]]:
+    """The latest entry per item (it supersedes the rest) and each item's history."""
+    current: dict[str, Entry] = {}
+    history: dict[str, list[Entry]] = {}
+    for e in entries:
+        if e.action == "detail":
+            continue
+        current[e.item_id] = e
+        history.setdefault(e.item_id, []).append(e)
+    return current, history
+
+
+def _answer_word(item: Item, value: Any) -> str | None:
+    if item.kind == "confirm":
+        return "yes" if value else "no"
+    if item.kind == "choice":
+        return str(value)
+    return None
+
+
+def evaluate(
+    checklist: Checklist,
+    entries: Iterable[Entry],
+    instruments: dict[int, Instrument] | None = None,
+) -> list[Result]:
+    """One Result per item, in walk order."""
+    instruments = instruments or {}
+    current, history = current_entries(entries)
+    applicable: dict[str, bool] = {}
+    for _, item in checklist.items():
+        applicable[item.id] = _applies(item, current, applicable, checklist)
+
+    results: list[Result] = []
+    for section, item in checklist.items():
+        entry = current.get(item.id)
+        base = {"item": item, "section": section.id, "entry": entry,
+                "history": history.get(item.id, []), "section_title": section.title}
+        if not applicable[item.id]:
+            assert item.when is not None
+            results.append(Result(**base, verdict=NA, applicable=False,
+                                  reason=f"not applicable: only when {item.when.text()}",
+                                  source=f"checklist condition on {item.when.item}"))
+            continue
+        if entry is None:
+            results.append(Result(**base, verdict=PENDING, reason="not answered yet",
+                                  source=_item_source(item, checklist)))
+            continue
+        if entry.action == "skip":
+            results.append(Result(**base, verdict=REVIEW, reason=f"skipped: {entry.raw}",
+                                  source=_item_source(item, checklist)))
+            continue
+        if entry.action == "na":
+            results.append(Result(**base, verdict=NA, reason=f"n/a: {entry.raw}",
+                                  source="installer's statement"))
+            continue
+        outcome = _judge(item, entry.value, current, applicable, checklist)
+        verdict, reason = outcome.verdict, outcome.reason
+        inst = instruments.get(entry.instrument_id) if entry.instrument_id else None
+        if inst is not None and entry.at[:10] > inst.calibration_due:
+            note = (f"instrument {inst.serial} was past its calibration due date "
+                    f"{inst.calibration_due} when this was taken")
+            if verdict != FAIL:
+                verdict = worst(verdict, REVIEW)
+                reason = f"{note}; {reason}"
+            else:
+                reason = f"{reason}; {note}"
+        results.append(Result(**base, verdict=verdict, reason=reason, source=outcome.source,
+                              measured=outcome.measured, expected=outcome.expected))
+    return results
+
+
+def _applies(item: Item, current: dict[str, Entry], applicable: dict[str, bool],
+             checklist: Checklist) -> bool:
+    if item.when is None:
+        return True
+    target_id = item.when.item
+    if not applicable.get(target_id, True):
+        return False
+    entry = current.get(target_id)
+    if entry is None or entry.action != "answer":
+        return True  # not known yet: assume the item applies (the safe side)
+    word = _answer_word(checklist.item(target_id), entry.value)
+    return word in item.when.accepts()
+
+
+def _item_source(item: Item, checklist: Checklist) -> str:
+    if item.check is not None and item.check.name in CHECKS:
+        return CHECKS[item.check.name].source
+    return item.source or f"checklist {checklist.id} {checklist.version}"
+
+
+def _judge(item: Item, value: Any, current: dict[str, Entry], applicable: dict[str, bool],
+           checklist: Checklist) -> Outcome:
+    source = _item_source(item, checklist)
+    if item.check is None:
+        if item.kind == "confirm":
+            wanted = item.pass_answer == "yes"
+            expected = Expected(None, value=item.pass_answer)
+            given = "yes" if value else "no"
+            if bool(value) == wanted:
+                return Outcome(PASS, f"confirmed: {given}", source, None, expected)
+            return Outcome(FAIL, f"answered {given}; {item.pass_answer} is needed before handover",
+                           source, Measured(given, None), expected)
+        return Outcome(PASS, "recorded", source)
+
+    definition = CHECKS[item.check.name]
+    inputs: dict[str, Any] = {}
+    refs: dict[str, str | None] = {}
+    for name, spec in item.check.inputs.items():
+        if isinstance(spec, str):
+            refs[name] = spec
+            e = current.get(spec)
+            if e is None or e.action != "answer" or not applicable.get(spec, True):
+                inputs[name] = MissingInput(name, spec)
+            else:
+                inputs[name] = e.value
+        else:
+            refs[name] = None
+            inputs[name] = spec["const"] if isinstance(spec, dict) else spec
+    params = {k: p.default for k, p in definition.params.items()}
+    params.update(item.check.params)
+    ctx = Context(item.id, value, inputs, refs, params)
+    try:
+        return definition.fn(ctx)
+    except MissingInput as missing:
+        what = definition.inputs[missing.name].doc if missing.name in definition.inputs else ""
+        where = f" (item {missing.ref})" if missing.ref else ""
+        return Outcome(REVIEW, f"waiting for {missing.name}{where}: {what}".rstrip(": "),
+                       definition.source)
+    except (ValueError, ArithmeticError, TypeError) as exc:
+        return Outcome(REVIEW, f"check {definition.name} could not decide: {exc}",
+                       definition.source)
+
+
+def job_status(results: list[Result]) -> str:
+    """not-ready if a critical item fails; incomplete if anything is pending or a
+    critical item is under review or skipped; else ready."""
+    if any(r.item.critical and r.verdict == FAIL for r in results):
+        return NOT_READY
+    if any(r.verdict == PENDING for r in results):
+        return INCOMPLETE
+    if any(r.item.critical and (r.verdict == REVIEW or r.skipped) for r in results):
+        return INCOMPLETE
+    return READY
+
+
+def status_reasons(results: list[Result]) -> list[str]:
+    """What stands between this job and 'ready', in plain words."""
+    out = []
+    for r in results:
+        if r.item.critical and r.verdict == FAIL:
+            out.append(f"{r.item.id}: fails — {r.reason}")
+    pending = [r.item.id for r in results if r.verdict == PENDING]
+    if pending:
+        out.append(f"{len(pending)} item(s) not answered yet, first {pending[0]}")
+    for r in results:
+        if r.item.critical and r.verdict == REVIEW:
+            out.append(f"{r.item.id}: needs review — {r.reason}")
+    return out
+
+
+__all__ = ["INCOMPLETE", "NOT_READY", "READY", "Result", "evaluate", "job_status", "PASS"]

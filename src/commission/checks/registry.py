@@ -1,0 +1,157 @@
+"""The registry of named checks and the small types they return.
+
+A check is one function registered by name. It receives a :class:`Context`
+(the item's own value, its inputs — other items' values or constants — and its
+parameters, every one of which has a default with a source) and returns an
+:class:`Outcome`: verdict, measured figure, expected value or range, a reason a
+person can act on, and the source of the rule.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from dataclasses import dataclass, field
+from typing import Any
+
+PASS, FAIL, REVIEW, NA, PENDING = "pass", "fail", "review", "n/a", "pending"
+_SEVERITY = {PASS: 0, REVIEW: 1, FAIL: 2}
+
+
+def worst(*verdicts: str) -> str:
+    """Worst of pass/review/fail (fail, then review, then pass)."""
+    return max(verdicts, key=lambda v: _SEVERITY.get(v, -1))
+
+
+@dataclass(frozen=True)
+class Measured:
+    value: float | str | bool
+    unit: str | None
+
+    def as_json(self) -> dict[str, Any]:
+        return {"value": self.value, "unit": self.unit}
+
+
+@dataclass(frozen=True)
+class Expected:
+    """An expected value, or a range with either bound open."""
+
+    unit: str | None
+    min: float | None = None
+    max: float | None = None
+    value: float | str | bool | None = None
+
+    def as_json(self) -> dict[str, Any]:
+        if self.value is not None:
+            return {"value": self.value, "unit": self.unit}
+        return {"min": self.min, "max": self.max, "unit": self.unit}
+
+    def text(self) -> str:
+        from ..units import format_number as f
+
+        u = f" {self.unit}" if self.unit else ""
+        if self.value is not None:
+            return f"{self.value}{u}"
+        if self.min is not None and self.max is not None:
+            return f"{f(self.min)}–{f(self.max)}{u}"
+        if self.max is not None:
+            return f"≤ {f(self.max)}{u}"
+        if self.min is not None:
+            return f"≥ {f(self.min)}{u}"
+        return "—"
+
+
+@dataclass(frozen=True)
+class Outcome:
+    verdict: str
+    reason: str
+    source: str
+    measured: Measured | None = None
+    expected: Expected | None = None
+
+
+@dataclass(frozen=True)
+class Param:
+    """A limit or setting of a check: default value, unit, and where it comes from."""
+
+    default: float | str | None
+    unit: str | None
+    source: str
+    doc: str = ""
+
+
+@dataclass(frozen=True)
+class Input:
+    doc: str
+    required: bool = True
+
+
+class MissingInput(Exception):
+    """An input item has no usable answer yet: the check cannot decide."""
+
+    def __init__(self, name: str, ref: str | None):
+        super().__init__(name)
+        self.name = name
+        self.ref = ref
+
+
+@dataclass
+class Context:
+    """What a check sees: its own item's value, its inputs and parameters."""
+
+    item_id: str
+    value: Any
+    inputs: dict[str, Any]  # resolved values; a MissingInput marker where unanswered
+    refs: dict[str, str | None]  # input name → item id (None for a constant)
+    params: dict[str, Any]
+    extra: dict[str, Any] = field(default_factory=dict)
+
+    def input(self, name: str) -> Any:
+        if name not in self.inputs or isinstance(self.inputs[name], MissingInput):
+            raise MissingInput(name, self.refs.get(name))
+        return self.inputs[name]
+
+    def has(self, name: str) -> bool:
+        return name in self.inputs and not isinstance(self.inputs[name], MissingInput)
+
+    def param(self, name: str) -> Any:
+        return self.params[name]
+
+
+@dataclass(frozen=True)
+class CheckDef:
+    name: str
+    fn: Callable[[Context], Outcome]
+    summary: str
+    source: str
+    kinds: tuple[str, ...]  # item kinds this check can sit on
+    quantities: tuple[str, ...]  # for reading items: the quantities it understands
+    inputs: dict[str, Input]
+    params: dict[str, Param]
+    available: bool = True
+
+
+CHECKS: dict[str, CheckDef] = {}
+
+
+def check(
+    name: str,
+    *,
+    summary: str,
+    source: str,
+    kinds: tuple[str, ...] = ("reading",),
+    quantities: tuple[str, ...] = (),
+    inputs: dict[str, Input] | None = None,
+    params: dict[str, Param] | None = None,
+    available: bool = True,
+) -> Callable[[Callable[[Context], Outcome]], Callable[[Context], Outcome]]:
+    """Register a check under ``name``. Adding a check is adding one function."""
+
+    def register(fn: Callable[[Context], Outcome]) -> Callable[[Context], Outcome]:
+        if name in CHECKS:
+            raise RuntimeError(f"check {name!r} registered twice")
+        CHECKS[name] = CheckDef(
+            name, fn, summary, source, kinds, quantities, inputs or {}, params or {}, available
+        )
+        return fn
+
+    return register

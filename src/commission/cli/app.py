@@ -1,0 +1,78 @@
+"""The ``commission`` command. Only typer is imported at start-up; every command
+imports what it needs when it runs, so ``commission --help`` is instant."""
+
+from __future__ import annotations
+
+import os
+import sys
+
+import typer
+
+from . import checklists, instruments, jobs, walk
+
+app = typer.Typer(
+    name="commission",
+    help="Commission a solar surplus diverter: walk the checklist on site, check every "
+    "reading against the physics, keep everything in one register.\n\n"
+    "Mains work can kill: isolate and prove dead; competent, licensed persons only; "
+    "local wiring rules come first.",
+    no_args_is_help=True,
+    add_completion=False,
+    pretty_exceptions_enable=False,
+    context_settings={"help_option_names": ["-h", "--help"]},
+)
+app.add_typer(checklists.app, name="checklists")
+app.add_typer(instruments.app, name="instruments")
+app.command()(jobs.new)
+app.command("jobs")(jobs.jobs)
+app.command()(jobs.show)
+app.command()(jobs.amend)
+app.command()(walk.walk)
+app.command()(jobs.backup)
+
+
+@app.callback()
+def _root(
+    version: bool = typer.Option(False, "--version", help="Print the version and exit."),
+) -> None:
+    if version:
+        from .. import __version__
+
+        typer.echo(f"commission {__version__}")
+        raise typer.Exit(0)
+
+
+def main(argv: list[str] | None = None) -> int:
+    """Entry point: bad input → one line on stderr and exit 2, never a traceback."""
+    from ..errors import UserError
+
+    debug = bool(os.environ.get("COMMISSION_DEBUG"))
+    try:
+        app(args=argv, prog_name="commission")
+    except SystemExit as exc:
+        code = exc.code
+        return code if isinstance(code, int) else (0 if code is None else 1)
+    except UserError as exc:
+        if debug:
+            raise
+        for line in str(exc).splitlines() or [""]:
+            sys.stderr.write(f"error: {line}\n")
+        return exc.exit_code
+    except KeyboardInterrupt:
+        sys.stderr.write("stopped\n")
+        return 130
+    except OSError as exc:
+        if debug:
+            raise
+        where = f"{exc.filename}: " if getattr(exc, "filename", None) else ""
+        sys.stderr.write(f"error: {where}{exc.strerror or exc}\n")
+        return 1
+    return 0
+
+
+def run() -> None:
+    sys.exit(main())
+
+
+if __name__ == "__main__":
+    run()

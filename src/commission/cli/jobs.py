@@ -1,0 +1,142 @@
+"""commission new | jobs | show | amend | backup"""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Annotated
+
+import typer
+
+from .common import JsonOpt, RegisterOpt, emit_json, open_register
+
+Text = Annotated[str, typer.Option()]
+
+
+def new(
+    checklist: Annotated[str, typer.Option(help="Checklist file or shipped name.")],
+    site: Annotated[str, typer.Option(help="Site name, as the job is known.")],
+    address: Text = "",
+    client: Annotated[str, typer.Option(help="The homeowner or client.")] = "",
+    installer: Annotated[str, typer.Option(help="Installer's name.")] = "",
+    installer_contact: Annotated[
+        str, typer.Option(help="Phone or e-mail the homeowner can call.")] = "",
+    installer_registration: Annotated[
+        str, typer.Option(help="Installer's registration or licence number.")] = "",
+    register: RegisterOpt = None,
+) -> None:
+    """Start a job on a checklist; prints the new job's id as the last line."""
+    from ..checklist import load
+    from ..errors import UserError
+    from ..resources import resolve
+
+    if not site.strip():
+        raise UserError("--site: give the site's name (e.g. --site 'Larch House')")
+    loaded = load(resolve("checklists", checklist))
+    details = {"site": site.strip(), "address": address, "client": client,
+               "installer": installer, "installer_contact": installer_contact,
+               "installer_registration": installer_registration}
+    with open_register(register) as reg:
+        job = reg.create_job(loaded, details)
+        typer.echo(f"job for {job.details['site']} on {loaded.checklist.id} "
+                   f"{loaded.checklist.version}, register {reg.path}")
+        typer.echo(job.short_id)
+
+
+def jobs(register: RegisterOpt = None, as_json: JsonOpt = False) -> None:
+    """List the jobs in the register with their status."""
+    from ..walk.state import JobState
+
+    with open_register(register) as reg:
+        rows = []
+        for job in reg.jobs():
+            state = JobState(reg, job)
+            rows.append((job, state.status()))
+    if as_json:
+        emit_json([{**job.as_json(), "status": status} for job, status in rows])
+        return
+    if not rows:
+        typer.echo("no jobs yet: start one with 'commission new --checklist NAME --site TEXT'")
+        return
+    for job, status in rows:
+        typer.echo(f"{job.short_id}  {status:<10}  {job.created_at[:10]}  "
+                   f"{job.details['site'][:40]}")
+
+
+def show(
+    job: Annotated[str, typer.Argument(help="Job id (as printed by 'new') or UUID.")],
+    register: RegisterOpt = None,
+    as_json: JsonOpt = False,
+) -> None:
+    """Show a job: its status and every item's value, verdict, reason and source."""
+    from ..checks.evaluate import status_reasons
+    from ..present import SIGN_CONVENTION, WIDTH, table, use_colour, word
+    from ..snapshot import job_json
+    from ..walk.state import JobState
+
+    with open_register(register, create=False) as reg:
+        state = JobState(reg, reg.find_job(job))
+        results = state.results()
+        if as_json:
+            emit_json(job_json(state, results))
+            return
+    import textwrap
+
+    colour = use_colour()
+    j = state.job
+    c = state.checklist
+    typer.echo(f"Job {j.short_id} · {j.details['site']}")
+    for key in ("address", "client", "installer", "installer_contact"):
+        if j.details.get(key):
+            typer.echo(f"  {key.replace('_', ' ')}: {j.details[key]}")
+    typer.echo(f"  checklist: {c.id} {c.version} (sha256 {j.checklist_sha256[:12]}…)")
+    status = state.status(results)
+    typer.echo(f"Status: {word(status, colour)}")
+    for reason in status_reasons(results):
+        typer.echo(textwrap.fill(f"- {reason}", WIDTH, initial_indent="  ",
+                                 subsequent_indent="    "))
+    typer.echo(textwrap.fill(SIGN_CONVENTION, WIDTH))
+    for line in table(results, colour):
+        typer.echo(line)
+    typer.echo("")
+    typer.echo("! = critical. Verdicts: pass, fail, review (needs judgement or data), "
+               "n/a, pending.")
+
+
+def amend(
+    job: Annotated[str, typer.Argument(help="Job id or UUID.")],
+    site: Annotated[str | None, typer.Option()] = None,
+    address: Annotated[str | None, typer.Option()] = None,
+    client: Annotated[str | None, typer.Option()] = None,
+    installer: Annotated[str | None, typer.Option()] = None,
+    installer_contact: Annotated[str | None, typer.Option()] = None,
+    installer_registration: Annotated[str | None, typer.Option()] = None,
+    register: RegisterOpt = None,
+) -> None:
+    """Change a job's details; each change is kept as an entry."""
+    from ..errors import UserError
+
+    changes = {k: v for k, v in {
+        "site": site, "address": address, "client": client, "installer": installer,
+        "installer_contact": installer_contact,
+        "installer_registration": installer_registration}.items() if v is not None}
+    if not changes:
+        raise UserError("amend: nothing to change (give e.g. --client 'R. Okafor')")
+    if "site" in changes and not changes["site"].strip():
+        raise UserError("--site: cannot be empty")
+    with open_register(register, create=False) as reg:
+        target = reg.find_job(job)
+        made = reg.amend(target, changes)
+    if not made:
+        typer.echo("no change: the details already read so")
+    for e in made:
+        typer.echo(f"{e.item_id.removeprefix('job.')}: {e.value}")
+
+
+def backup(
+    dest: Annotated[Path, typer.Argument(help="New file for the copy.")],
+    register: RegisterOpt = None,
+) -> None:
+    """Write a consistent copy of the register (safe while a walk is open)."""
+    with open_register(register, create=False) as reg:
+        reg.backup(dest)
+    typer.echo(f"register copied to {dest}")

@@ -1,0 +1,74 @@
+"""commission walk"""
+
+from __future__ import annotations
+
+import sys
+from pathlib import Path
+from typing import Annotated
+
+import typer
+
+from .common import RegisterOpt, open_register
+
+
+class _Tty:
+    """The walk's terminal: line input with editing, output flushed at once."""
+
+    def __init__(self) -> None:
+        from ..present import use_colour
+
+        self.colour = use_colour()
+        try:
+            import readline  # noqa: F401  (line editing and history for input())
+        except ImportError:
+            pass
+
+    def ask(self, prompt: str) -> str:
+        return input(prompt)
+
+    def say(self, text: str = "") -> None:
+        sys.stdout.write(text + "\n")
+        sys.stdout.flush()
+
+
+def walk(
+    job: Annotated[str, typer.Argument(help="Job id or UUID.")],
+    answers: Annotated[
+        Path | None,
+        typer.Option(help="Apply an answers file (item id → typed text) instead of asking."),
+    ] = None,
+    instrument: Annotated[
+        str | None, typer.Option(help="Serial of the instrument taking the readings.")] = None,
+    register: RegisterOpt = None,
+) -> None:
+    """Walk the job's checklist on site: one item at a time, each answer kept at once."""
+    from ..walk.lock import JobLock
+    from ..walk.state import JobState
+
+    with open_register(register, create=False) as reg:
+        target = reg.find_job(job)
+        inst = reg.instrument_by_serial(instrument) if instrument else None
+        with JobLock(reg.path, target.uuid, target.short_id):
+            state = JobState(reg, target)
+            if answers is not None:
+                from ..walk.answers import apply_answers
+
+                report = apply_answers(state, answers, instrument)
+                for item_id, message in report.rejected:
+                    typer.echo(f"{item_id}: {message}", err=True)
+                status = state.status()
+                typer.echo(f"{report.added} answers added, {report.unchanged} unchanged, "
+                           f"{len(report.rejected)} rejected; job {target.short_id} is {status}")
+                if report.rejected:
+                    raise typer.Exit(2)
+                return
+            if not sys.stdin.isatty():
+                from ..errors import UserError
+
+                raise UserError("walk: no terminal to ask on; use --answers FILE for a "
+                                "scripted run")
+            from ..walk.session import Walk
+
+            code = Walk(state, _Tty(), inst).run()
+    if code:
+        raise typer.Exit(code)

@@ -1,0 +1,1 @@
+"""Pure numerical models behind the checks: numbers and arrays in, numbers and dataclasses out."""

@@ -1,0 +1,898 @@
+"""Analysis of a captured mains voltage and current waveform.
+
+Everything here works on samples taken at a constant rate; nothing reads files. The capture
+is cut into windows of whole mains cycles found from the rising zero crossings of the
+voltage, so the sampling need not be locked to the mains, the frequency may be off nominal or
+drift slowly, and the capture may start and end anywhere in a cycle. Each window is
+integrated over exactly its own cycles and its harmonics are found by projecting the samples
+onto sin/cos of h times the window's own frequency (a DFT at non-integer bin positions).
+
+Public names:
+
+* :func:`analyse` -- whole arrays in, :class:`CaptureAnalysis` out.
+* :class:`CaptureAccumulator` and :func:`analyse_chunks` -- the same analysis fed in chunks
+  of any size, in bounded memory, giving the same figures as :func:`analyse`.
+* :func:`fit_mains_sine` -- frequency and amplitude of a short stretch of voltage.
+* :func:`sample_rate_from_times` -- sample rate and start of an evenly spaced time column.
+* :func:`power_direction` and :func:`classify_clamp` -- what the figures say about the
+  direction of power flow and the orientation of the current clamp.
+
+Sign of power: positive = import, energy flowing from the grid into the premises, for a
+clamp on the incoming supply conductor with its arrow pointing into the premises.
+
+References
+----------
+.. [1] IEEE Std 1459-2010, Definitions for the Measurement of Electric Power Quantities Under
+   Sinusoidal, Nonsinusoidal, Balanced, or Unbalanced Conditions (RMS, P, S = V*I,
+   PF = P/S, displacement power factor, THD).
+.. [2] IEC 61000-4-7:2002+A1:2008, Testing and measurement techniques -- General guide on
+   harmonics and interharmonics measurements and instrumentation (10-cycle windows at 50 Hz,
+   12 at 60 Hz, orders up to 40; from memory).
+.. [3] IEC 61000-2-2:2002, Compatibility levels for low-frequency conducted disturbances
+   (THD taken up to order 40; from memory).
+.. [4] IEEE Std 1057-2017, Standard for Digitizing Waveform Recorders (sine-wave fit used to
+   estimate the frequency of a record; from memory).
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Iterable
+from dataclasses import dataclass
+
+import numpy as np
+
+MAX_ORDER = 40
+"""Highest harmonic order analysed (IEC 61000-4-7 / IEC 61000-2-2, from memory)."""
+
+# Search band for the mains frequency: 50 Hz and 60 Hz systems with a wide margin for
+# generator-fed or islanded supplies (our choice).
+_F_MIN_HZ = 40.0
+_F_MAX_HZ = 70.0
+# Below this rate a mains cycle has fewer than ~6 samples and nothing useful can be said.
+_MIN_RATE_HZ = 400.0
+# Length of the stretch used to find the frequency before the zero-crossing tracker starts.
+_TUNE_S = 0.25
+# Decimate the sine fit to at most this many points: its only job is the frequency.
+_FIT_MAX_POINTS = 8000
+# A cycle whose length differs from the expected one by more than this is irregular.
+_CYCLE_MIN_RATIO = 0.8
+_CYCLE_MAX_RATIO = 1.25
+# Hysteresis of the zero-crossing detector, as a fraction of the fundamental amplitude.
+_HYSTERESIS = 0.2
+# Window length: about 200 ms, i.e. 10 cycles at 50 Hz and 12 at 60 Hz (IEC 61000-4-7,
+# from memory); the two systems are told apart at 55 Hz.
+_WINDOW_SPLIT_HZ = 55.0
+# "No significant power flow" below max(5 W, 2 % of S): our default for the direction field.
+_DIRECTION_MIN_W = 5.0
+_DIRECTION_MIN_FRACTION = 0.02
+
+
+@dataclass(frozen=True)
+class MainsSineFit:
+    """Result of :func:`fit_mains_sine`.
+
+    Attributes
+    ----------
+    frequency_hz : float
+        Frequency of the fitted sine [Hz].
+    amplitude : float
+        Peak amplitude of the fitted sine, in the unit of the samples.
+    offset : float
+        Constant (DC) part of the fit, in the unit of the samples.
+    explained_fraction : float
+        Share of the AC energy of the samples that the sine explains [1].
+    """
+
+    frequency_hz: float
+    amplitude: float
+    offset: float
+    explained_fraction: float
+
+
+def fit_mains_sine(sample_rate_hz, samples, *, max_duration_s=0.5):
+    """Fit ``offset + A*cos(2*pi*f*t + phi)`` to a short stretch of mains voltage.
+
+    A coarse search over 40...70 Hz followed by a golden-section refinement of the
+    frequency; amplitude, phase and offset come from linear least squares at each trial
+    frequency (the three-parameter fit inside the four-parameter fit of IEEE 1057 [1]_).
+    Only the first ``max_duration_s`` of the samples are used.
+
+    Parameters
+    ----------
+    sample_rate_hz : float
+        Sampling rate [Hz].
+    samples : array_like
+        Voltage samples, any unit (usually [V]).
+    max_duration_s : float, default 0.5
+        Longest stretch used, from the start [s].
+
+    Returns
+    -------
+    MainsSineFit
+
+    Raises
+    ------
+    ValueError
+        Too few samples, a constant signal, or no mains-frequency sine in the samples.
+
+    References
+    ----------
+    .. [1] IEEE Std 1057-2017, Standard for Digitizing Waveform Recorders, sine-wave fitting
+       (from memory).
+    """
+    rate = float(sample_rate_hz)
+    if not (math.isfinite(rate) and rate > 0):
+        raise ValueError(f"sample rate must be a positive number of hertz, got {sample_rate_hz!r}")
+    x = np.asarray(samples, dtype=float).ravel()
+    x = x[: max(8, int(round(max_duration_s * rate)))]
+    if x.size < 8:
+        raise ValueError(f"only {x.size} samples: too few to find the mains frequency")
+    if not np.all(np.isfinite(x)):
+        raise ValueError("the samples contain NaN or infinite values")
+    duration_s = x.size / rate
+    step = max(1, math.ceil(x.size / _FIT_MAX_POINTS))
+    m = x.size // step
+    xs = x[: m * step].reshape(m, step).mean(axis=1)
+    t = (np.arange(m) * step + (step - 1) / 2.0) / rate
+    t -= t.mean()
+    xc = xs - xs.mean()
+    total = float(xc @ xc)
+    if total <= 0.0:
+        raise ValueError("the voltage is constant: no alternating voltage to analyse")
+
+    grid_step = min(0.25, 1.0 / (8.0 * duration_s))
+    grid = np.arange(_F_MIN_HZ, _F_MAX_HZ + grid_step / 2, grid_step)
+    explained = np.concatenate(
+        [_sine_explained(t, xc, grid[k : k + 64])[0] for k in range(0, grid.size, 64)]
+    )
+    best = int(np.argmax(explained))
+    lo = max(_F_MIN_HZ, grid[best] - grid_step)
+    hi = min(_F_MAX_HZ, grid[best] + grid_step)
+    f = _golden_max(lambda fr: float(_sine_explained(t, xc, np.array([fr]))[0][0]), lo, hi)
+    if f - _F_MIN_HZ < 1e-3 or _F_MAX_HZ - f < 1e-3:
+        raise ValueError(
+            f"no mains-frequency sine found: the best fit sits at the edge of the "
+            f"{_F_MIN_HZ:.0f}-{_F_MAX_HZ:.0f} Hz search band"
+        )
+    expl, beta = _sine_explained(t, xc, np.array([f]))
+    fraction = float(expl[0]) / total
+    if fraction < 0.5:
+        raise ValueError(
+            f"the voltage does not look like a mains sine wave (a {f:.1f} Hz sine explains "
+            f"only {100 * fraction:.0f} % of it); check which channel is the voltage"
+        )
+    a, b, c = beta[0]
+    return MainsSineFit(
+        frequency_hz=float(f),
+        amplitude=float(math.hypot(a, b)),
+        offset=float(c + xs.mean()),
+        explained_fraction=fraction,
+    )
+
+
+def _sine_explained(t, x, freqs):
+    """Energy of ``x`` explained by [cos, sin, 1] at each frequency, and the coefficients."""
+    w = (2.0 * math.pi) * freqs[:, None] * t[None, :]
+    c = np.cos(w)
+    s = np.sin(w)
+    n = float(t.size)
+    cc = np.einsum("ij,ij->i", c, c)
+    ss = np.einsum("ij,ij->i", s, s)
+    cs = np.einsum("ij,ij->i", c, s)
+    c1 = c.sum(axis=1)
+    s1 = s.sum(axis=1)
+    mat = np.empty((freqs.size, 3, 3))
+    mat[:, 0, 0] = cc
+    mat[:, 0, 1] = mat[:, 1, 0] = cs
+    mat[:, 0, 2] = mat[:, 2, 0] = c1
+    mat[:, 1, 1] = ss
+    mat[:, 1, 2] = mat[:, 2, 1] = s1
+    mat[:, 2, 2] = n
+    rhs = np.stack((c @ x, s @ x, np.full(freqs.size, x.sum())), axis=1)
+    beta = np.linalg.solve(mat, rhs[:, :, None])[:, :, 0]
+    return np.einsum("ij,ij->i", rhs, beta), beta
+
+
+def _golden_max(func, lo, hi, iterations=60):
+    """Maximise a unimodal function of one variable on [lo, hi] by golden-section search."""
+    g = (math.sqrt(5.0) - 1.0) / 2.0
+    a, b = lo, hi
+    x1 = b - g * (b - a)
+    x2 = a + g * (b - a)
+    f1, f2 = func(x1), func(x2)
+    for _ in range(iterations):
+        if f1 < f2:
+            a, x1, f1 = x1, x2, f2
+            x2 = a + g * (b - a)
+            f2 = func(x2)
+        else:
+            b, x2, f2 = x2, x1, f1
+            x1 = b - g * (b - a)
+            f1 = func(x1)
+    return 0.5 * (a + b)
+
+
+def sample_rate_from_times(time_s):
+    """Sample rate and start time of an evenly spaced column of sample times.
+
+    Parameters
+    ----------
+    time_s : array_like
+        Sample times, strictly increasing and evenly spaced to within a quarter of a
+        sample interval [s].
+
+    Returns
+    -------
+    tuple of float
+        ``(sample_rate_hz, start_time_s)`` [Hz], [s].
+
+    Raises
+    ------
+    ValueError
+        Fewer than two times, non-finite or non-increasing times, or uneven spacing.
+    """
+    t = np.asarray(time_s, dtype=float).ravel()
+    if t.size < 2:
+        raise ValueError("need at least two sample times")
+    if not np.all(np.isfinite(t)):
+        raise ValueError("the sample times contain NaN or infinite values")
+    steps = np.diff(t)
+    if np.any(steps <= 0):
+        k = int(np.flatnonzero(steps <= 0)[0]) + 1
+        raise ValueError(f"sample times must increase: sample {k + 1} is not later than {k}")
+    rate = (t.size - 1) / (t[-1] - t[0])
+    off_grid = np.abs(t - (t[0] + np.arange(t.size) / rate)) * rate
+    worst = float(off_grid.max())
+    if worst > 0.25:
+        raise ValueError(
+            f"sample times are not evenly spaced (one is {worst:.2f} sample intervals off an "
+            "even grid); give the sample rate instead or resample the capture"
+        )
+    return float(rate), float(t[0])
+
+
+@dataclass(frozen=True)
+class CaptureAnalysis:
+    """Figures of one capture, from :func:`analyse` or :class:`CaptureAccumulator`.
+
+    Aggregate values are over all analysed windows, which together hold ``cycles`` whole
+    mains cycles.
+
+    Attributes
+    ----------
+    sample_rate_hz : float
+        Sampling rate [Hz].
+    frequency_hz : float
+        Mean mains frequency over the analysed cycles [Hz].
+    cycles : int
+        Whole mains cycles analysed [1].
+    windows : int
+        Number of analysis windows [1].
+    window_cycles : int
+        Cycles per window (10 at 50 Hz, 12 at 60 Hz, or all cycles of a short capture) [1].
+    v_rms, i_rms : float
+        True RMS voltage [V] and current [A].
+    p_w : float
+        Active power, mean of v*i, positive = import [W].
+    s_va : float
+        Apparent power V_rms*I_rms [VA].
+    power_factor : float
+        True power factor P/S [1].
+    displacement_pf : float
+        cos(phi1) between the voltage and current fundamentals [1]; NaN if the current has
+        no fundamental.
+    phase_deg : float
+        Signed angle of the current fundamental relative to the voltage fundamental,
+        -180...180, positive when the current leads [deg]; NaN if there is no fundamental.
+    v1_rms, i1_rms : float
+        RMS of the fundamentals, RMS-averaged over windows [V], [A].
+    thd_v_pct, thd_i_pct : float
+        Total harmonic distortion over orders 2...``thd_max_order`` relative to the
+        fundamental [%].
+    thd_max_order : int
+        Highest order included in THD (40, or less when the sampling rate cannot resolve 40).
+    direction : str
+        ``'import'``, ``'export'`` or ``'none'`` (|P| below max(5 W, 2 % of S)).
+    harmonic_orders : tuple of int
+        Orders 2...40.
+    i_harmonics_a, v_harmonics_v : tuple of float or None
+        RMS value of each order, RMS-averaged over windows [A], [V]; None above the Nyquist
+        limit.
+    window_start_s : tuple of float
+        Start of each window, on the time axis of the input [s].
+    window_v_rms, window_i_rms, window_p_w : tuple of float
+        Per-window V_rms [V], I_rms [A] and P [W].
+    irregular_cycles : int
+        Cycles rejected because their length was far from the expected period (glitches in
+        the voltage); the windows around them were dropped [1].
+    """
+
+    sample_rate_hz: float
+    frequency_hz: float
+    cycles: int
+    windows: int
+    window_cycles: int
+    v_rms: float
+    i_rms: float
+    p_w: float
+    s_va: float
+    power_factor: float
+    displacement_pf: float
+    phase_deg: float
+    v1_rms: float
+    i1_rms: float
+    thd_v_pct: float
+    thd_i_pct: float
+    thd_max_order: int
+    direction: str
+    harmonic_orders: tuple[int, ...]
+    i_harmonics_a: tuple[float | None, ...]
+    v_harmonics_v: tuple[float | None, ...]
+    window_start_s: tuple[float, ...]
+    window_v_rms: tuple[float, ...]
+    window_i_rms: tuple[float, ...]
+    window_p_w: tuple[float, ...]
+    irregular_cycles: int
+
+
+class CaptureAccumulator:
+    """Analyse a capture fed in chunks of any size, in bounded memory.
+
+    Feed ``(voltage, current)`` chunks with :meth:`add`, then call :meth:`result`. Samples
+    are processed internally in fixed blocks counted from the first sample, so the figures
+    do not depend on how the data was chunked: :func:`analyse` is this class fed one chunk.
+
+    Memory stays at a few blocks of samples plus four numbers per window, so an hour at
+    10 kS/s is fine.
+
+    Parameters
+    ----------
+    sample_rate_hz : float
+        Sampling rate, at least 400 Hz [Hz].
+    start_time_s : float, default 0
+        Time of the first sample, only used for ``window_start_s`` [s].
+    window_cycles : int, optional
+        Cycles per window; default 10 below 55 Hz and 12 above (IEC 61000-4-7, from memory).
+    max_order : int, default 40
+        Highest harmonic order [1].
+
+    References
+    ----------
+    See the module docstring: IEEE 1459-2010, IEC 61000-4-7, IEEE 1057.
+    """
+
+    def __init__(self, sample_rate_hz, *, start_time_s=0.0, window_cycles=None,
+                 max_order=MAX_ORDER):
+        rate = float(sample_rate_hz)
+        if not (math.isfinite(rate) and rate >= _MIN_RATE_HZ):
+            raise ValueError(
+                f"sample rate {sample_rate_hz!r} Hz is too low: at least "
+                f"{_MIN_RATE_HZ:.0f} samples per second are needed"
+            )
+        if window_cycles is not None and (int(window_cycles) != window_cycles
+                                          or window_cycles < 1):
+            raise ValueError(f"window_cycles must be a positive integer, got {window_cycles!r}")
+        if int(max_order) != max_order or not 1 <= max_order <= MAX_ORDER:
+            raise ValueError(f"max_order must be an integer 1...{MAX_ORDER}, got {max_order!r}")
+        self._rate = rate
+        self._t0 = float(start_time_s)
+        self._window_cycles_opt = None if window_cycles is None else int(window_cycles)
+        self._max_order = int(max_order)
+        self._tune_n = max(8, int(round(_TUNE_S * rate)))
+        self._block = max(1 << 16, 2 * self._tune_n)
+        self._pending: list[tuple[np.ndarray, np.ndarray]] = []
+        self._pending_n = 0
+        self._received = 0
+        self._processed = 0
+        self._buf_v = np.empty(0)
+        self._buf_i = np.empty(0)
+        self._buf0 = 0
+        self._tuned = False
+        self._result: CaptureAnalysis | None = None
+        # totals over windows
+        self._sum_v2 = 0.0
+        self._sum_i2 = 0.0
+        self._sum_vi = 0.0
+        self._sum_len = 0.0
+        self._cycles = 0
+        self._windows = 0
+        self._cross = 0j
+        self._series: list[tuple[float, float, float, float]] = []
+        self._irregular = 0
+        self._open: list[float] = []
+
+    def add(self, voltage_v, current_a):
+        """Append a chunk of samples.
+
+        Parameters
+        ----------
+        voltage_v : array_like
+            Voltage samples [V].
+        current_a : array_like
+            Current samples, same length [A].
+        """
+        if self._result is not None:
+            raise RuntimeError("result() was already called; start a new accumulator")
+        v = np.asarray(voltage_v, dtype=float).ravel()
+        i = np.asarray(current_a, dtype=float).ravel()
+        if v.shape != i.shape:
+            raise ValueError(
+                f"voltage and current chunks differ in length ({v.size} and {i.size})"
+            )
+        if not (np.all(np.isfinite(v)) and np.all(np.isfinite(i))):
+            raise ValueError(
+                f"the samples contain NaN or infinite values (near sample {self._received + 1})"
+            )
+        if v.size == 0:
+            return
+        self._pending.append((v, i))
+        self._pending_n += v.size
+        self._received += v.size
+        while self._received >= self._processed + self._block:
+            self._advance(self._processed + self._block, final=False)
+
+    def result(self):
+        """Finish the analysis and return it.
+
+        Returns
+        -------
+        CaptureAnalysis
+
+        Raises
+        ------
+        ValueError
+            Fewer than two whole mains cycles, no recognisable mains voltage, no regular run
+            of cycles, or a current that is zero throughout.
+        """
+        if self._result is None:
+            if self._received == 0:
+                raise ValueError("no samples were given")
+            self._advance(self._received, final=True)
+            self._result = self._summary()
+        return self._result
+
+    # -- internal pipeline -------------------------------------------------------------
+
+    def _advance(self, end, final):
+        """Move samples up to absolute index ``end`` into the buffer and process them."""
+        self._take_pending(end - self._processed)
+        self._processed = end
+        if not self._tuned:
+            self._tune()
+        if end - self._half > self._y_next:
+            self._scan(end)
+        if final and self._windows == 0:
+            if self._received > self._fallback_limit:
+                raise ValueError(
+                    f"no run of {self._window_cycles} regular mains cycles found: the voltage "
+                    f"zero crossings are irregular ({self._irregular} irregular cycles)"
+                )
+            self._short_capture_window()
+        self._trim()
+
+    def _take_pending(self, count):
+        vs, is_ = [], []
+        need = count
+        while need > 0:
+            v, i = self._pending[0]
+            if v.size <= need:
+                self._pending.pop(0)
+                vs.append(v)
+                is_.append(i)
+                need -= v.size
+            else:
+                vs.append(v[:need])
+                is_.append(i[:need])
+                self._pending[0] = (v[need:], i[need:])
+                need = 0
+        self._pending_n -= count
+        self._buf_v = np.concatenate([self._buf_v, *vs])
+        self._buf_i = np.concatenate([self._buf_i, *is_])
+
+    def _tune(self):
+        """Find the frequency and amplitude from the first stretch; set up the tracker."""
+        n = min(self._tune_n, self._buf_v.size)
+        fit = fit_mains_sine(self._rate, self._buf_v[:n], max_duration_s=_TUNE_S)
+        f = fit.frequency_hz
+        self._period = self._rate / f  # samples per cycle
+        if self._window_cycles_opt is not None:
+            self._window_cycles = self._window_cycles_opt
+        else:
+            self._window_cycles = 10 if f < _WINDOW_SPLIT_HZ else 12
+        # DC removal by a centred moving mean over about one cycle, then a light low-pass
+        # over about 1/16 cycle; both kernels are symmetric, so the crossings are not delayed.
+        self._len_dc = 2 * int(self._period / 2) + 1
+        self._len_lp = 2 * int(self._period / 32) + 1
+        self._half = (self._len_dc - 1) // 2 + (self._len_lp - 1) // 2
+        self._hyst = _HYSTERESIS * fit.amplitude
+        # orders the sampling can resolve, with 2 % margin for frequency drift
+        nyquist = self._rate / 2.0
+        self._orders = max(1, min(self._max_order, int(nyquist / (1.02 * f))))
+        self._vh2 = np.zeros(self._orders)
+        self._ih2 = np.zeros(self._orders)
+        self._y_next = self._half
+        self._state = 0
+        self._last_y = None
+        self._last_zero = None
+        self._fallback_limit = int(math.ceil((self._window_cycles + 4) * self._period))
+        self._tuned = True
+
+    def _scan(self, end):
+        """Find rising zero crossings of the filtered voltage for samples up to ``end``."""
+        a = self._y_next
+        b = end - self._half
+        seg0 = a - self._half
+        x = self._buf_v[seg0 - self._buf0 : end - self._buf0]
+        x = x - x.mean()
+        k = (self._len_dc - 1) // 2
+        d = x[k : x.size - k] - _centred_mean(x, self._len_dc)
+        y = _centred_mean(d, self._len_lp)
+        h = self._hyst
+        state = np.zeros(y.size, dtype=np.int8)
+        state[y < -h] = -1
+        state[y > h] = 1
+        last = np.where(state != 0, np.arange(y.size), -1)
+        np.maximum.accumulate(last, out=last)
+        filled = np.where(last >= 0, state[np.maximum(last, 0)], self._state)
+        before = np.empty_like(filled)
+        before[0] = self._state
+        before[1:] = filled[:-1]
+        events = np.flatnonzero((filled == 1) & (before == -1))
+        y_before = np.empty_like(y)
+        y_before[0] = y[0] if self._last_y is None else self._last_y
+        y_before[1:] = y[:-1]
+        up = np.flatnonzero((y_before < 0) & (y >= 0))
+        up_pos = a + up - 1 + y_before[up] / (y_before[up] - y[up])
+        for e in events:
+            j = int(np.searchsorted(up, e, side="right")) - 1
+            pos = float(up_pos[j]) if j >= 0 else self._last_zero
+            if pos is not None:
+                self._crossing(pos)
+        self._state = int(filled[-1])
+        self._last_y = float(y[-1])
+        if up.size:
+            self._last_zero = float(up_pos[-1])
+        self._y_next = b
+
+    def _crossing(self, pos):
+        if self._open:
+            gap = pos - self._open[-1]
+            if not _CYCLE_MIN_RATIO * self._period <= gap <= _CYCLE_MAX_RATIO * self._period:
+                self._irregular += 1
+                self._open = [pos]
+                return
+        self._open.append(pos)
+        if len(self._open) == self._window_cycles + 1:
+            self._window(self._open[0], self._open[-1], self._window_cycles)
+            self._open = [pos]
+
+    def _short_capture_window(self):
+        """One window of all the whole cycles of a capture too short for a full window."""
+        n = self._received
+        fit = fit_mains_sine(self._rate, self._buf_v, max_duration_s=n / self._rate + 1.0)
+        f = fit.frequency_hz
+        held = n * f / self._rate
+        cycles = int(math.floor(held + 1e-3))
+        if cycles < 2:
+            raise ValueError(
+                f"the capture holds {held:.2f} mains cycles ({1000 * n / self._rate:.1f} ms "
+                f"at {f:.2f} Hz); at least two whole cycles are needed"
+            )
+        length = min(cycles * self._rate / f, float(n))
+        start = -0.5 + (n - length) / 2.0
+        self._window_cycles = cycles
+        self._window(start, start + length, cycles)
+
+    def _window(self, pa, pb, cycles):
+        """Integrate one window from sample position ``pa`` to ``pb`` (``cycles`` cycles).
+
+        Each sample stands for the interval of half a sample either side of it; the window
+        weights are the overlaps of those intervals with [pa, pb].
+        """
+        n_lo = int(math.floor(pa + 0.5))
+        n_hi = int(math.ceil(pb - 0.5))
+        n = np.arange(n_lo, n_hi + 1, dtype=float)
+        w = np.clip(np.minimum(pb, n + 0.5) - np.maximum(pa, n - 0.5), 0.0, 1.0)
+        v = self._buf_v[n_lo - self._buf0 : n_hi + 1 - self._buf0]
+        i = self._buf_i[n_lo - self._buf0 : n_hi + 1 - self._buf0]
+        length = pb - pa
+        wv = w * v
+        wi = w * i
+        sv2 = float(wv @ v)
+        si2 = float(wi @ i)
+        svi = float(wv @ i)
+        z = np.exp((-2j * math.pi * cycles / length) * (n - pa))
+        powers = np.cumprod(np.broadcast_to(z, (self._orders, z.size)), axis=0)
+        phasors = (powers @ np.stack((wv, wi), axis=1)) * (2.0 / length)  # peak phasors
+        self._vh2 += 0.5 * np.abs(phasors[:, 0]) ** 2
+        self._ih2 += 0.5 * np.abs(phasors[:, 1]) ** 2
+        self._cross += phasors[0, 1] * np.conj(phasors[0, 0])
+        self._sum_v2 += sv2
+        self._sum_i2 += si2
+        self._sum_vi += svi
+        self._sum_len += length
+        self._cycles += cycles
+        self._windows += 1
+        self._series.append((self._t0 + pa / self._rate, math.sqrt(sv2 / length),
+                             math.sqrt(si2 / length), svi / length))
+
+    def _trim(self):
+        if not self._tuned or (self._windows == 0 and self._processed <= self._fallback_limit):
+            return
+        keep = self._y_next - self._half
+        if self._open:
+            keep = min(keep, int(math.floor(self._open[0] + 0.5)))
+        drop = keep - self._buf0
+        if drop > 0:
+            self._buf_v = self._buf_v[drop:].copy()
+            self._buf_i = self._buf_i[drop:].copy()
+            self._buf0 = keep
+
+    def _summary(self):
+        length = self._sum_len
+        v_rms = math.sqrt(self._sum_v2 / length)
+        i_rms = math.sqrt(self._sum_i2 / length)
+        if i_rms == 0.0:
+            raise ValueError("the current is zero throughout the capture: no current to analyse")
+        p = self._sum_vi / length
+        s = v_rms * i_rms
+        v1 = math.sqrt(self._vh2[0] / self._windows)
+        i1 = math.sqrt(self._ih2[0] / self._windows)
+        if i1 > 1e-9 * i_rms:
+            phase = math.degrees(math.atan2(self._cross.imag, self._cross.real))
+            dpf = math.cos(math.radians(phase))
+        else:
+            phase = dpf = math.nan
+        thd_v = 100.0 * math.sqrt(float(self._vh2[1:].sum()) / self._vh2[0])
+        thd_i = 100.0 * math.sqrt(float(self._ih2[1:].sum()) / self._ih2[0]) if i1 > 0 else math.nan
+        orders = tuple(range(2, MAX_ORDER + 1))
+        i_h = tuple(math.sqrt(self._ih2[h - 1] / self._windows) if h <= self._orders else None
+                    for h in orders)
+        v_h = tuple(math.sqrt(self._vh2[h - 1] / self._windows) if h <= self._orders else None
+                    for h in orders)
+        starts, wv, wi, wp = (tuple(col) for col in zip(*self._series, strict=True))
+        return CaptureAnalysis(
+            sample_rate_hz=self._rate,
+            frequency_hz=self._cycles * self._rate / length,
+            cycles=self._cycles,
+            windows=self._windows,
+            window_cycles=self._window_cycles,
+            v_rms=v_rms,
+            i_rms=i_rms,
+            p_w=p,
+            s_va=s,
+            power_factor=p / s,
+            displacement_pf=dpf,
+            phase_deg=phase,
+            v1_rms=v1,
+            i1_rms=i1,
+            thd_v_pct=thd_v,
+            thd_i_pct=thd_i,
+            thd_max_order=self._orders,
+            direction=power_direction(p, s),
+            harmonic_orders=orders,
+            i_harmonics_a=i_h,
+            v_harmonics_v=v_h,
+            window_start_s=starts,
+            window_v_rms=wv,
+            window_i_rms=wi,
+            window_p_w=wp,
+            irregular_cycles=self._irregular,
+        )
+
+
+def _centred_mean(x, length):
+    """Moving mean over ``length`` (odd) samples, only where the window is complete."""
+    c = np.concatenate(([0.0], np.cumsum(x)))
+    return (c[length:] - c[:-length]) / length
+
+
+def analyse(time_s_or_rate_hz, voltage_v, current_a, *, window_cycles=None,
+            max_order=MAX_ORDER):
+    """Analyse a capture of mains voltage and current.
+
+    RMS values, active and apparent power and the power factor over whole cycles [1]_;
+    fundamentals and harmonics by DFT over windows of 10 cycles at 50 Hz or 12 at 60 Hz
+    [2]_; THD over orders 2...40 [3]_. The frequency is tracked from the voltage zero
+    crossings, so neither the sampling nor the mains need be steady or locked together.
+
+    Parameters
+    ----------
+    time_s_or_rate_hz : float or array_like
+        Either the sampling rate [Hz] or the sample times, evenly spaced [s].
+    voltage_v : array_like
+        Voltage samples [V].
+    current_a : array_like
+        Current samples, positive into the premises [A].
+    window_cycles : int, optional
+        Cycles per window; default 10 at 50 Hz and 12 at 60 Hz [1].
+    max_order : int, default 40
+        Highest harmonic order [1].
+
+    Returns
+    -------
+    CaptureAnalysis
+
+    Raises
+    ------
+    ValueError
+        Fewer than two whole cycles, arrays of different lengths, NaN, uneven sample times,
+        no recognisable mains voltage, or a current that is zero throughout.
+
+    References
+    ----------
+    .. [1] IEEE Std 1459-2010, clauses on single-phase RMS, active, apparent power and
+       power factor.
+    .. [2] IEC 61000-4-7:2002+A1:2008, window of 10/12 cycles (from memory).
+    .. [3] IEC 61000-2-2:2002, THD up to order 40 (from memory).
+    """
+    v = np.asarray(voltage_v, dtype=float)
+    i = np.asarray(current_a, dtype=float)
+    if v.ndim != 1 or i.ndim != 1 or v.size != i.size:
+        raise ValueError(
+            f"voltage and current must be 1-D arrays of equal length, got shapes "
+            f"{v.shape} and {i.shape}"
+        )
+    if np.ndim(time_s_or_rate_hz) == 0:
+        rate, start = float(time_s_or_rate_hz), 0.0
+    else:
+        t = np.asarray(time_s_or_rate_hz, dtype=float)
+        if t.shape != v.shape:
+            raise ValueError(f"time has {t.size} samples but voltage has {v.size}")
+        rate, start = sample_rate_from_times(t)
+    acc = CaptureAccumulator(rate, start_time_s=start, window_cycles=window_cycles,
+                             max_order=max_order)
+    acc.add(v, i)
+    return acc.result()
+
+
+def analyse_chunks(sample_rate_hz, chunks: Iterable, *, start_time_s=0.0, window_cycles=None,
+                   max_order=MAX_ORDER):
+    """Analyse a capture given as an iterable of ``(voltage_v, current_a)`` chunks.
+
+    Same figures as :func:`analyse` on the concatenated samples, in bounded memory.
+
+    Parameters
+    ----------
+    sample_rate_hz : float
+        Sampling rate [Hz].
+    chunks : iterable of (array_like, array_like)
+        Voltage [V] and current [A] chunks, in order.
+    start_time_s : float, default 0
+        Time of the first sample [s].
+    window_cycles : int, optional
+        Cycles per window [1].
+    max_order : int, default 40
+        Highest harmonic order [1].
+
+    Returns
+    -------
+    CaptureAnalysis
+
+    References
+    ----------
+    As for :func:`analyse`.
+    """
+    acc = CaptureAccumulator(sample_rate_hz, start_time_s=start_time_s,
+                             window_cycles=window_cycles, max_order=max_order)
+    for v, i in chunks:
+        acc.add(v, i)
+    return acc.result()
+
+
+def power_direction(p_w, s_va):
+    """Direction of power flow from the sign of P.
+
+    Parameters
+    ----------
+    p_w : float
+        Active power, positive = import [W].
+    s_va : float
+        Apparent power [VA].
+
+    Returns
+    -------
+    str
+        ``'import'`` when P > 0, ``'export'`` when P < 0, ``'none'`` when |P| is below
+        max(5 W, 2 % of S) (our default threshold, no standard behind it).
+    """
+    threshold = max(_DIRECTION_MIN_W, _DIRECTION_MIN_FRACTION * abs(s_va))
+    if abs(p_w) < threshold:
+        return "none"
+    return "import" if p_w > 0 else "export"
+
+
+@dataclass(frozen=True)
+class ClampCheck:
+    """Verdict on the orientation of the current clamp.
+
+    Attributes
+    ----------
+    verdict : str
+        ``'pass'``, ``'fail'`` or ``'review'``.
+    likely_cause : str
+        ``'as expected'``, ``'reversed'``, ``'another phase'``,
+        ``'another phase and reversed'``, ``'reactive load or wrong reference'``, or
+        ``'no expectation'``.
+    reason : str
+        One line a person can act on.
+    """
+
+    verdict: str
+    likely_cause: str
+    reason: str
+
+
+_CLAMP_CAVEAT = (
+    "The test is only meaningful with a mostly resistive load and the diverter off or at "
+    "full output."
+)
+
+
+def classify_clamp(phase_deg, expect=None):
+    """Judge the clamp orientation from the angle of the current fundamental.
+
+    With import expected the current fundamental should be in phase with the voltage
+    (0 deg); with export expected, in anti-phase (180 deg). With ``d`` the deviation from
+    that: |d| <= 45 deg pass; |d| >= 135 deg fail (clamp reversed); in between fail, naming
+    the nearest pattern: about 120 deg -- clamp and voltage reference on different phases;
+    about 60 deg -- another phase and reversed; about 90 deg -- little active power, a
+    reactive load or a wrong reference. Without an expectation the verdict is review.
+
+    Parameters
+    ----------
+    phase_deg : float
+        Signed angle of the current fundamental relative to the voltage fundamental,
+        positive when the current leads [deg].
+    expect : {'import', 'export', None}
+        The direction the installer expects at the moment of the capture.
+
+    Returns
+    -------
+    ClampCheck
+
+    References
+    ----------
+    .. [1] Phasor angles of a three-phase system, 120 deg apart (any textbook on power
+       systems); the 45 deg pass band is our default.
+    """
+    if expect not in (None, "import", "export"):
+        raise ValueError(f"expect must be 'import', 'export' or None, got {expect!r}")
+    phi = float(phase_deg)
+    if not math.isfinite(phi):
+        return ClampCheck("review", "no expectation" if expect is None else "unknown",
+                          "The current has no fundamental, so its angle cannot be judged. "
+                          + _CLAMP_CAVEAT)
+    shown = f"the current fundamental is at {phi:+.1f} deg to the voltage"
+    if expect is None:
+        flow = "import" if abs(phi) <= 90 else "export"
+        return ClampCheck("review", "no expectation",
+                          f"{shown.capitalize()}, which reads as {flow}; give the expected "
+                          f"direction to judge the clamp. {_CLAMP_CAVEAT}")
+    reference = 0.0 if expect == "import" else 180.0
+    dev = (phi - reference + 180.0) % 360.0 - 180.0
+    other = "export" if expect == "import" else "import"
+    if abs(dev) <= 45.0:
+        return ClampCheck("pass", "as expected",
+                          f"{shown.capitalize()}: power flows as {expect}, as expected. "
+                          f"{_CLAMP_CAVEAT}")
+    if abs(dev) >= 135.0:
+        return ClampCheck("fail", "reversed",
+                          f"{shown.capitalize()}: it reads {other} while {expect} was "
+                          "expected; the clamp is probably reversed (its arrow must point "
+                          f"into the premises). {_CLAMP_CAVEAT}")
+    if abs(dev) < 75.0:
+        cause = "another phase and reversed"
+        advice = ("the clamp is probably on another phase than the voltage reference and "
+                  "also reversed")
+    elif abs(dev) <= 105.0:
+        cause = "reactive load or wrong reference"
+        advice = ("there is almost no active power: a mostly reactive load, or the voltage "
+                  "reference is not the one the clamp's conductor is fed from")
+    else:
+        cause = "another phase"
+        advice = "the clamp and the voltage reference are probably on different phases"
+    return ClampCheck("fail", cause,
+                      f"{shown.capitalize()}, {abs(dev):.0f} deg away from {expect}: {advice}. "
+                      f"{_CLAMP_CAVEAT}")

@@ -1,0 +1,74 @@
+"""Register schema and its migrations, one step per schema version.
+
+``PRAGMA user_version`` holds the schema version. A register made by an older
+release is migrated on first use; a newer one is refused rather than damaged.
+"""
+
+from __future__ import annotations
+
+SCHEMA_VERSION = 1
+
+# Step n brings a register from version n-1 to n. Never edit a released step:
+# add the next one.
+MIGRATIONS: dict[int, str] = {
+    1: """
+    CREATE TABLE jobs (
+        id INTEGER PRIMARY KEY,
+        short_id TEXT NOT NULL UNIQUE,
+        uuid TEXT NOT NULL UNIQUE,
+        created_at TEXT NOT NULL,
+        created_by TEXT NOT NULL,
+        site TEXT NOT NULL,
+        address TEXT NOT NULL DEFAULT '',
+        client TEXT NOT NULL DEFAULT '',
+        installer TEXT NOT NULL DEFAULT '',
+        installer_contact TEXT NOT NULL DEFAULT '',
+        installer_registration TEXT NOT NULL DEFAULT '',
+        checklist_id TEXT NOT NULL,
+        checklist_version TEXT NOT NULL,
+        checklist_sha256 TEXT NOT NULL,
+        checklist_text TEXT NOT NULL,
+        checklist_source TEXT NOT NULL DEFAULT ''
+    );
+    CREATE TABLE instruments (
+        id INTEGER PRIMARY KEY,
+        serial TEXT NOT NULL UNIQUE,
+        make TEXT NOT NULL,
+        model TEXT NOT NULL,
+        calibration_due TEXT NOT NULL,
+        added_at TEXT NOT NULL
+    );
+    -- Append-only: a correction is a new entry that supersedes the old one.
+    CREATE TABLE entries (
+        id INTEGER PRIMARY KEY,
+        uuid TEXT NOT NULL UNIQUE,
+        job_id INTEGER NOT NULL REFERENCES jobs(id),
+        item_id TEXT NOT NULL,
+        action TEXT NOT NULL CHECK (action IN ('answer', 'skip', 'na', 'detail')),
+        raw TEXT NOT NULL,
+        value_json TEXT,
+        unit_typed TEXT,
+        instrument_id INTEGER REFERENCES instruments(id),
+        at TEXT NOT NULL,
+        by TEXT NOT NULL,
+        supersedes INTEGER REFERENCES entries(id)
+    );
+    CREATE INDEX entries_by_job ON entries(job_id, item_id, id);
+    CREATE TRIGGER entries_keep_update BEFORE UPDATE ON entries
+        BEGIN SELECT RAISE(ABORT, 'entries are append-only'); END;
+    CREATE TRIGGER entries_keep_delete BEFORE DELETE ON entries
+        BEGIN SELECT RAISE(ABORT, 'entries are append-only'); END;
+    -- Files and photos by SHA-256, as 1 MiB chunks, so the register stays one file.
+    CREATE TABLE blobs (
+        sha256 TEXT PRIMARY KEY,
+        bytes INTEGER NOT NULL,
+        added_at TEXT NOT NULL
+    );
+    CREATE TABLE blob_chunks (
+        blob TEXT NOT NULL,
+        seq INTEGER NOT NULL,
+        data BLOB NOT NULL,
+        PRIMARY KEY (blob, seq)
+    );
+    """,
+}

@@ -1,0 +1,450 @@
+"""SQLite job register (standard library only; no ORM).
+
+WAL journal with full sync, so a committed entry survives a power cut; every
+entry is committed on its own before the walk asks the next question. The
+register never stores a verdict: verdicts are derived from the entries.
+"""
+
+from __future__ import annotations
+
+import getpass
+import hashlib
+import json
+import os
+import secrets
+import sqlite3
+import uuid as uuidlib
+from collections.abc import Iterator
+from dataclasses import dataclass, field
+from datetime import UTC, datetime
+from pathlib import Path
+from typing import Any
+
+from ..errors import UserError
+from .schema import MIGRATIONS, SCHEMA_VERSION
+
+CHUNK = 1 << 20  # 1 MiB rows for files and photos
+DETAIL_FIELDS = (
+    "site",
+    "address",
+    "client",
+    "installer",
+    "installer_contact",
+    "installer_registration",
+)
+# Short job ids: unambiguous letters and digits (no 0/O, 1/I/L, U), typed on site.
+_ALPHABET = "23456789ABCDEFGHJKMNPQRSTVWXYZ"
+
+
+class RegisterError(UserError):
+    """The register cannot be used: missing, read-only, full, or from a newer release."""
+
+
+def now_iso() -> str:
+    return datetime.now(UTC).isoformat(timespec="milliseconds").replace("+00:00", "Z")
+
+
+def who() -> str:
+    name = os.environ.get("COMMISSION_USER")
+    if name:
+        return name
+    try:
+        return getpass.getuser()
+    except (KeyError, OSError):
+        return "unknown"
+
+
+@dataclass(frozen=True)
+class Job:
+    id: int
+    short_id: str
+    uuid: str
+    created_at: str
+    created_by: str
+    details: dict[str, str]
+    checklist_id: str
+    checklist_version: str
+    checklist_sha256: str
+    checklist_text: str
+    checklist_source: str
+
+    def as_json(self) -> dict[str, Any]:
+        return {
+            "id": self.short_id,
+            "uuid": self.uuid,
+            "created_at": self.created_at,
+            "created_by": self.created_by,
+            **self.details,
+            "checklist": {
+                "id": self.checklist_id,
+                "version": self.checklist_version,
+                "sha256": self.checklist_sha256,
+                "source": self.checklist_source,
+            },
+        }
+
+
+@dataclass(frozen=True)
+class Entry:
+    id: int
+    uuid: str
+    item_id: str
+    action: str  # answer | skip | na | detail
+    raw: str
+    value: Any
+    unit_typed: str | None
+    instrument_id: int | None
+    at: str
+    by: str
+    supersedes: int | None
+
+
+@dataclass(frozen=True)
+class Instrument:
+    id: int
+    serial: str
+    make: str
+    model: str
+    calibration_due: str  # ISO date
+    added_at: str
+
+    def as_json(self) -> dict[str, Any]:
+        return {
+            "serial": self.serial,
+            "make": self.make,
+            "model": self.model,
+            "calibration_due": self.calibration_due,
+        }
+
+
+@dataclass
+class Register:
+    path: Path
+    create: bool = True
+    _db: sqlite3.Connection | None = field(default=None, init=False, repr=False)
+
+    # -- opening and closing -------------------------------------------------
+    def __enter__(self) -> Register:
+        if self._db is None:
+            self.open()
+        return self
+
+    def __exit__(self, *exc: object) -> None:
+        self.close()
+
+    def open(self) -> None:
+        if not self.path.exists():
+            if not self.create:
+                raise RegisterError(f"{self.path}: no register here (make one with "
+                                    "'commission new' or give --register)")
+            try:
+                self.path.parent.mkdir(parents=True, exist_ok=True)
+            except OSError as exc:
+                raise RegisterError(f"{self.path.parent}: cannot create ({exc.strerror})") from None
+        elif self.path.is_dir():
+            raise RegisterError(f"{self.path}: is a folder; --register needs a file path")
+        try:
+            db = sqlite3.connect(self.path, isolation_level=None, timeout=10)
+            db.execute("PRAGMA busy_timeout = 10000")
+            db.execute("PRAGMA journal_mode = WAL")
+            db.execute("PRAGMA synchronous = FULL")
+            db.execute("PRAGMA foreign_keys = ON")
+        except sqlite3.DatabaseError as exc:
+            raise RegisterError(f"{self.path}: not a usable register ({exc})") from None
+        self._db = db
+        self._migrate()
+
+    def close(self) -> None:
+        if self._db is None:
+            return
+        try:
+            self._db.execute("PRAGMA wal_checkpoint(TRUNCATE)")
+        except sqlite3.Error:
+            pass  # another process holds the register; its own exit checkpoints
+        self._db.close()
+        self._db = None
+
+    @property
+    def db(self) -> sqlite3.Connection:
+        if self._db is None:
+            self.open()
+        assert self._db is not None
+        return self._db
+
+    def _migrate(self) -> None:
+        db = self.db
+        try:
+            version = db.execute("PRAGMA user_version").fetchone()[0]
+        except sqlite3.DatabaseError as exc:
+            raise RegisterError(f"{self.path}: not a register ({exc})") from None
+        if version > SCHEMA_VERSION:
+            raise RegisterError(
+                f"{self.path}: made by a newer release (schema {version}; this one reads "
+                f"up to {SCHEMA_VERSION}); upgrade commission"
+            )
+        for step in range(version + 1, SCHEMA_VERSION + 1):
+            try:
+                db.execute("BEGIN IMMEDIATE")
+                for statement in _statements(MIGRATIONS[step]):
+                    db.execute(statement)
+                db.execute(f"PRAGMA user_version = {step}")
+                db.execute("COMMIT")
+            except sqlite3.Error as exc:
+                if db.in_transaction:
+                    db.execute("ROLLBACK")
+                raise RegisterError(f"{self.path}: cannot prepare the register ({exc})") from None
+
+    def _write(self, sql: str, args: tuple[Any, ...] = ()) -> sqlite3.Cursor:
+        try:
+            return self.db.execute(sql, args)
+        except sqlite3.OperationalError as exc:
+            raise RegisterError(f"{self.path}: cannot write ({exc}); nothing was changed") from None
+
+    # -- jobs ----------------------------------------------------------------
+    def create_job(self, checklist, details: dict[str, str], by: str | None = None) -> Job:
+        """``checklist`` is a :class:`commission.checklist.Loaded`."""
+        for _ in range(20):
+            short = "".join(secrets.choice(_ALPHABET) for _ in range(5))
+            if not self.db.execute("SELECT 1 FROM jobs WHERE short_id = ?", (short,)).fetchone():
+                break
+        return self.insert_job(
+            short_id=short,
+            uuid=str(uuidlib.uuid4()),
+            created_at=now_iso(),
+            created_by=by or who(),
+            details=details,
+            checklist=checklist,
+        )
+
+    def insert_job(self, *, short_id, uuid, created_at, created_by, details, checklist) -> Job:
+        d = {k: details.get(k) or "" for k in DETAIL_FIELDS}
+        with self._transaction():
+            cur = self._write(
+                "INSERT INTO jobs (short_id, uuid, created_at, created_by, site, address, client,"
+                " installer, installer_contact, installer_registration, checklist_id,"
+                " checklist_version, checklist_sha256, checklist_text, checklist_source)"
+                " VALUES (?,?,?,?,?,?,?,?,?,?,?,?,?,?,?)",
+                (short_id, uuid, created_at, created_by, *(d[k] for k in DETAIL_FIELDS),
+                 checklist.checklist.id, checklist.checklist.version, checklist.sha256,
+                 checklist.text, checklist.name),
+            )
+        return self.job(cur.lastrowid)
+
+    def job(self, job_id: int) -> Job:
+        row = self.db.execute("SELECT * FROM jobs WHERE id = ?", (job_id,)).fetchone()
+        return self._job(row)
+
+    def _job(self, row: tuple) -> Job:
+        cols = [c[1] for c in self.db.execute("PRAGMA table_info(jobs)")]
+        r = dict(zip(cols, row, strict=True))
+        details = {k: r[k] for k in DETAIL_FIELDS}
+        for e in self._entries(r["id"], "AND action = 'detail'"):
+            details[e.item_id.removeprefix("job.")] = e.value
+        return Job(r["id"], r["short_id"], r["uuid"], r["created_at"], r["created_by"], details,
+                   r["checklist_id"], r["checklist_version"], r["checklist_sha256"],
+                   r["checklist_text"], r["checklist_source"])
+
+    def find_job(self, ref: str) -> Job:
+        ref = ref.strip()
+        row = self.db.execute("SELECT * FROM jobs WHERE short_id = ? OR uuid = ?",
+                              (ref.upper(), ref.lower())).fetchone()
+        if row is None and len(ref) >= 8:
+            rows = self.db.execute("SELECT * FROM jobs WHERE uuid LIKE ?",
+                                   (ref.lower() + "%",)).fetchall()
+            row = rows[0] if len(rows) == 1 else None
+        if row is None:
+            known = [r[0] for r in self.db.execute(
+                "SELECT short_id FROM jobs ORDER BY id DESC LIMIT 5")]
+            hint = f" (recent: {', '.join(known)})" if known else " (the register has no jobs)"
+            raise UserError(f"job '{ref}': not in {self.path}{hint}")
+        return self._job(row)
+
+    def jobs(self) -> list[Job]:
+        return [self._job(r) for r in self.db.execute("SELECT * FROM jobs ORDER BY id")]
+
+    def amend(self, job: Job, changes: dict[str, str], by: str | None = None) -> list[Entry]:
+        out = []
+        for key, value in changes.items():
+            if key not in DETAIL_FIELDS:
+                raise UserError(f"{key}: not a job detail ({', '.join(DETAIL_FIELDS)})")
+            if job.details.get(key) == value:
+                continue
+            out.append(self.add_entry(job, f"job.{key}", "detail", value, value, by=by))
+        return out
+
+    # -- entries -------------------------------------------------------------
+    def add_entry(
+        self,
+        job: Job,
+        item_id: str,
+        action: str,
+        raw: str,
+        value: Any = None,
+        unit_typed: str | None = None,
+        instrument_id: int | None = None,
+        by: str | None = None,
+        at: str | None = None,
+    ) -> Entry:
+        """Append one entry and commit it before returning."""
+        with self._transaction():
+            prev = self.db.execute(
+                "SELECT id FROM entries WHERE job_id = ? AND item_id = ? ORDER BY id DESC LIMIT 1",
+                (job.id, item_id),
+            ).fetchone()
+            cur = self._write(
+                "INSERT INTO entries (uuid, job_id, item_id, action, raw, value_json, unit_typed,"
+                " instrument_id, at, by, supersedes) VALUES (?,?,?,?,?,?,?,?,?,?,?)",
+                (str(uuidlib.uuid4()), job.id, item_id, action, raw,
+                 json.dumps(value, ensure_ascii=False), unit_typed, instrument_id,
+                 at or now_iso(), by or who(), prev[0] if prev else None),
+            )
+        return self._entry_by_id(cur.lastrowid)
+
+    def _entry_by_id(self, entry_id: int) -> Entry:
+        row = self.db.execute(
+            "SELECT id, uuid, item_id, action, raw, value_json, unit_typed, instrument_id, at, by,"
+            " supersedes FROM entries WHERE id = ?", (entry_id,)).fetchone()
+        return _entry(row)
+
+    def _entries(self, job_id: int, where: str = "") -> list[Entry]:
+        rows = self.db.execute(
+            "SELECT id, uuid, item_id, action, raw, value_json, unit_typed, instrument_id, at, by,"
+            f" supersedes FROM entries WHERE job_id = ? {where} ORDER BY id", (job_id,))
+        return [_entry(r) for r in rows]
+
+    def entries(self, job: Job) -> list[Entry]:
+        """Every entry of a job, oldest first (answers, skips, n/a and detail changes)."""
+        return self._entries(job.id)
+
+    # -- instruments ---------------------------------------------------------
+    def add_instrument(self, serial: str, make: str, model: str, calibration_due: str) -> Instrument:
+        if self.db.execute("SELECT 1 FROM instruments WHERE serial = ?", (serial,)).fetchone():
+            raise UserError(f"instrument '{serial}': already registered")
+        with self._transaction():
+            cur = self._write(
+                "INSERT INTO instruments (serial, make, model, calibration_due, added_at)"
+                " VALUES (?,?,?,?,?)", (serial, make, model, calibration_due, now_iso()))
+        return self.instrument(cur.lastrowid)
+
+    def instrument(self, instrument_id: int) -> Instrument:
+        row = self.db.execute("SELECT * FROM instruments WHERE id = ?", (instrument_id,)).fetchone()
+        return Instrument(*row)
+
+    def instruments(self) -> list[Instrument]:
+        return [Instrument(*r) for r in self.db.execute("SELECT * FROM instruments ORDER BY id")]
+
+    def instrument_by_serial(self, serial: str) -> Instrument:
+        row = self.db.execute("SELECT * FROM instruments WHERE serial = ?", (serial,)).fetchone()
+        if row is None:
+            known = ", ".join(i.serial for i in self.instruments()) or "none yet"
+            raise UserError(f"instrument '{serial}': not registered (registered: {known}; "
+                            "add it with 'commission instruments add')")
+        return Instrument(*row)
+
+    # -- files and photos ----------------------------------------------------
+    def put_file(self, path: Path) -> tuple[str, int]:
+        """Store a file's bytes by SHA-256, streamed in 1 MiB chunks. Returns (sha256, bytes)."""
+        digest = hashlib.sha256()
+        size = 0
+        provisional = "partial-" + uuidlib.uuid4().hex
+        try:
+            handle = path.open("rb")
+        except OSError as exc:
+            raise UserError(f"{path}: cannot read ({exc.strerror})") from None
+        with handle, self._transaction():
+            seq = 0
+            while chunk := handle.read(CHUNK):
+                digest.update(chunk)
+                size += len(chunk)
+                self._write("INSERT INTO blob_chunks (blob, seq, data) VALUES (?,?,?)",
+                            (provisional, seq, chunk))
+                seq += 1
+            sha = digest.hexdigest()
+            if self.db.execute("SELECT 1 FROM blobs WHERE sha256 = ?", (sha,)).fetchone():
+                self._write("DELETE FROM blob_chunks WHERE blob = ?", (provisional,))
+            else:
+                self._write("UPDATE blob_chunks SET blob = ? WHERE blob = ?", (sha, provisional))
+                self._write("INSERT INTO blobs (sha256, bytes, added_at) VALUES (?,?,?)",
+                            (sha, size, now_iso()))
+        return sha, size
+
+    def read_blob(self, sha256: str) -> Iterator[bytes]:
+        """The stored bytes, chunk by chunk (never whole in memory)."""
+        seq = 0
+        while True:
+            row = self.db.execute("SELECT data FROM blob_chunks WHERE blob = ? AND seq = ?",
+                                  (sha256, seq)).fetchone()
+            if row is None:
+                return
+            yield row[0]
+            seq += 1
+
+    def has_blob(self, sha256: str) -> bool:
+        return self.db.execute("SELECT 1 FROM blobs WHERE sha256 = ?", (sha256,)).fetchone() is not None
+
+    # -- backup --------------------------------------------------------------
+    def backup(self, dest: Path) -> None:
+        """A consistent copy, taken with SQLite's online backup (safe during a walk)."""
+        if dest.exists():
+            raise UserError(f"{dest}: already exists; choose a new file name")
+        try:
+            target = sqlite3.connect(dest)
+        except sqlite3.Error as exc:
+            raise UserError(f"{dest}: cannot create ({exc})") from None
+        try:
+            self.db.backup(target)
+            target.execute("PRAGMA journal_mode = DELETE")
+        except sqlite3.Error as exc:
+            target.close()
+            dest.unlink(missing_ok=True)
+            raise RegisterError(f"{dest}: backup failed ({exc})") from None
+        target.close()
+
+    # -- helpers -------------------------------------------------------------
+    def _transaction(self):
+        return _Tx(self)
+
+
+class _Tx:
+    def __init__(self, reg: Register):
+        self.reg = reg
+
+    def __enter__(self) -> None:
+        try:
+            self.reg.db.execute("BEGIN IMMEDIATE")
+        except sqlite3.OperationalError as exc:
+            raise RegisterError(f"{self.reg.path}: cannot write ({exc})") from None
+
+    def __exit__(self, exc_type, exc, tb) -> None:
+        db = self.reg.db
+        if exc_type is None:
+            try:
+                db.execute("COMMIT")
+            except sqlite3.OperationalError as err:
+                db.execute("ROLLBACK")
+                raise RegisterError(f"{self.reg.path}: cannot write ({err}); "
+                                    "nothing was changed") from None
+        elif db.in_transaction:
+            db.execute("ROLLBACK")
+
+
+def _entry(row: tuple) -> Entry:
+    return Entry(row[0], row[1], row[2], row[3], row[4],
+                 json.loads(row[5]) if row[5] is not None else None,
+                 row[6], row[7], row[8], row[9], row[10])
+
+
+def _statements(script: str) -> list[str]:
+    """Split a migration script into statements (triggers hold inner semicolons)."""
+    out, buf = [], []
+    for line in script.strip().splitlines():
+        if line.strip().startswith("--"):
+            continue
+        buf.append(line)
+        joined = "\n".join(buf).strip()
+        if joined.endswith(";") and sqlite3.complete_statement(joined):
+            out.append(joined)
+            buf = []
+    if "\n".join(buf).strip():
+        out.append("\n".join(buf).strip())
+    return out

@@ -1,0 +1,69 @@
+"""A job as JSON: details, status, and every item with its verdict and history.
+
+This is what ``commission show --json`` prints, and the shape later embedded in
+the handover record. Values are in SI units (temperatures in °C).
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+from .checks.evaluate import Result
+from .register.store import Entry, Instrument
+from .walk.state import JobState
+
+
+def _entry_json(e: Entry, instruments: dict[int, Instrument]) -> dict[str, Any]:
+    inst = instruments.get(e.instrument_id) if e.instrument_id else None
+    return {
+        "entry": e.uuid,
+        "action": e.action,
+        "raw": e.raw,
+        "value": e.value if e.action == "answer" else None,
+        "unit_typed": e.unit_typed,
+        "instrument": inst.serial if inst else None,
+        "time": e.at,
+        "by": e.by,
+        "supersedes": e.supersedes,
+    }
+
+
+def item_json(r: Result, instruments: dict[int, Instrument]) -> dict[str, Any]:
+    e = r.entry
+    answered = e is not None and e.action == "answer"
+    si_unit = None
+    if r.item.kind == "reading":
+        from .units import QUANTITIES
+
+        si_unit = QUANTITIES[r.item.quantity].si_unit
+    inst = instruments.get(e.instrument_id) if e and e.instrument_id else None
+    return {
+        "id": r.item.id,
+        "section": r.section,
+        "kind": r.item.kind,
+        "critical": r.item.critical,
+        "raw": e.raw if e else None,
+        "value": e.value if answered else None,
+        "si_unit": si_unit,
+        "unit_typed": e.unit_typed if answered else None,
+        "measured": r.measured.as_json() if r.measured else None,
+        "expected": r.expected.as_json() if r.expected else None,
+        "verdict": r.verdict,
+        "reason": r.reason,
+        "source": r.source,
+        "instrument": inst.serial if inst else None,
+        "time": e.at if e else None,
+        "history": [_entry_json(h, instruments) for h in r.history],
+    }
+
+
+def job_json(state: JobState, results: list[Result] | None = None) -> dict[str, Any]:
+    from .checks.evaluate import status_reasons
+
+    results = results if results is not None else state.results()
+    return {
+        "job": state.job.as_json(),
+        "status": state.status(results),
+        "status_reasons": status_reasons(results),
+        "items": [item_json(r, state.instruments) for r in results],
+    }

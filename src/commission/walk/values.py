@@ -1,0 +1,78 @@
+"""Turn what a person typed into an item's value, or one line saying what is accepted."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+from ..checklist.model import Item
+from ..units import format_number, parse_reading
+
+YES = {"y", "yes"}
+NO = {"n", "no"}
+# Photos are embedded in the record as they are: formats a PDF can carry.
+_IMAGE_MAGIC = {b"\xff\xd8\xff": "JPEG", b"\x89PNG\r\n\x1a\n": "PNG"}
+
+
+class BadAnswer(ValueError):
+    """The answer cannot be used; the message says what would be accepted."""
+
+
+@dataclass(frozen=True)
+class Answer:
+    value: Any  # SI float, bool, option text, text, or a Path for file/photo items
+    unit_typed: str | None = None
+    echo: str = ""  # how the value was read, shown back to the person
+    path: Path | None = None
+
+
+def parse_answer(item: Item, text: str, base: Path | None = None) -> Answer:
+    raw = text.strip()
+    if not raw:
+        raise BadAnswer("empty answer")
+    if item.kind == "confirm":
+        word = raw.lower()
+        if word in YES:
+            return Answer(True, echo="yes")
+        if word in NO:
+            return Answer(False, echo="no")
+        raise BadAnswer(f"'{raw}' is not yes or no; type y or n")
+    if item.kind == "reading":
+        assert item.quantity and item.unit
+        acc = item.accept
+        try:
+            parsed = parse_reading(raw, item.quantity, item.unit,
+                                   acc.min if acc else None, acc.max if acc else None)
+        except ValueError as exc:
+            raise BadAnswer(str(exc)) from None
+        return Answer(parsed.value, parsed.unit_typed, f"read as {parsed.shown}")
+    if item.kind == "choice":
+        options = item.options or []
+        for option in options:
+            if raw.lower() == option.lower():
+                return Answer(option, echo=option)
+        if raw.isdigit() and 1 <= int(raw) <= len(options):
+            option = options[int(raw) - 1]
+            return Answer(option, echo=f"read as {option}")
+        listed = ", ".join(f"{n} {o}" for n, o in enumerate(options, 1))
+        raise BadAnswer(f"'{raw}' is not one of the options; type its number or its name: {listed}")
+    if item.kind == "text":
+        return Answer(raw, echo="")
+    # file and photo: a path to something taken on site
+    path = Path(raw).expanduser()
+    if base is not None and not path.is_absolute():
+        path = base / path
+    if not path.is_file():
+        what = "a folder" if path.is_dir() else "no such file"
+        raise BadAnswer(f"'{raw}': {what}; give the path of the {item.kind}")
+    size = path.stat().st_size
+    if size == 0:
+        raise BadAnswer(f"'{raw}': the file is empty")
+    if item.kind == "photo":
+        with path.open("rb") as handle:
+            head = handle.read(8)
+        kind = next((k for magic, k in _IMAGE_MAGIC.items() if head.startswith(magic)), None)
+        if kind is None:
+            raise BadAnswer(f"'{raw}': not a JPEG or PNG image (accepted: .jpg, .png)")
+    return Answer(path, echo=f"{path.name}, {format_number(size)} bytes", path=path)
