@@ -108,6 +108,22 @@ def _message(err: dict[str, Any]) -> str:
     return msg
 
 
+_FIELD_HINTS = (("unit '", "unit"), ("unknown quantity", "quantity"), ("a choice", "options"),
+                ("options must", "options"), ("'quantity'", "quantity"), ("'unit'", "unit"),
+                ("'accept'", "accept"), ("'options'", "options"))
+
+
+def _refine(loc: Path_, err: dict[str, Any]) -> Path_:
+    """Point an item-level rule (from a model validator) at the key it is about."""
+    if err["type"] != "value_error":
+        return loc
+    msg = err["msg"].removeprefix("Value error, ")
+    for start, key in _FIELD_HINTS:
+        if msg.startswith(start) or f" {start}" in msg[:40]:
+            return (*loc, key)
+    return loc
+
+
 def parse(text: str, name: str) -> Loaded:
     """Validate checklist text; raise ChecklistError listing every problem."""
     from pydantic import ValidationError
@@ -138,7 +154,7 @@ def parse(text: str, name: str) -> Loaded:
         checklist = Checklist.model_validate(data)
     except ValidationError as exc:
         for err in exc.errors():
-            loc = tuple(err["loc"])
+            loc = _refine(tuple(err["loc"]), err)
             problems.append(Problem(name, tree.line(loc), _item_id(data, loc), _message(err)))
         problems.sort(key=lambda p: p.line)
         raise ChecklistError(problems) from None

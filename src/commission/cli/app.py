@@ -8,7 +8,8 @@ import sys
 
 import typer
 
-from . import checklists, instruments, jobs, walk
+from . import checklists, demo, instruments, jobs, walk
+from .common import friendly
 
 app = typer.Typer(
     name="commission",
@@ -23,12 +24,13 @@ app = typer.Typer(
 )
 app.add_typer(checklists.app, name="checklists")
 app.add_typer(instruments.app, name="instruments")
-app.command()(jobs.new)
-app.command("jobs")(jobs.jobs)
-app.command()(jobs.show)
-app.command()(jobs.amend)
-app.command()(walk.walk)
-app.command()(jobs.backup)
+app.command("new")(friendly(jobs.new))
+app.command("jobs")(friendly(jobs.jobs))
+app.command("show")(friendly(jobs.show))
+app.command("amend")(friendly(jobs.amend))
+app.command("walk")(friendly(walk.walk))
+app.command("backup")(friendly(jobs.backup))
+app.command("demo")(friendly(demo.demo))
 
 
 @app.callback()

@@ -6,12 +6,13 @@ from typing import Annotated
 
 import typer
 
-from .common import JsonOpt, emit_json
+from .common import friendly, JsonOpt, emit_json
 
 app = typer.Typer(help="Check, inspect and describe checklist files.", no_args_is_help=True)
 
 
 @app.command()
+@friendly
 def validate(
     files: Annotated[list[str], typer.Argument(help="Checklist files or shipped names.")],
 ) -> None:
@@ -41,6 +42,7 @@ def validate(
 
 
 @app.command()
+@friendly
 def show(
     file: Annotated[str, typer.Argument(help="Checklist file or shipped name.")],
     as_json: JsonOpt = False,
@@ -83,6 +85,7 @@ def show(
 
 
 @app.command()
+@friendly
 def schema() -> None:
     """Print the JSON Schema of the checklist format (for editors)."""
     from ..checklist.model import json_schema
@@ -91,6 +94,7 @@ def schema() -> None:
 
 
 @app.command("list")
+@friendly
 def list_() -> None:
     """List the checklists shipped with the tool."""
     from ..resources import shipped

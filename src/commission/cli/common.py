@@ -31,3 +31,25 @@ def open_register(option: Path | None, create: bool = True):
 
 def emit_json(data: Any) -> None:
     sys.stdout.write(json.dumps(data, ensure_ascii=False, indent=2) + "\n")
+
+
+def friendly(fn):
+    """Wrap a command so bad input is one line on stderr and exit code 2."""
+    import functools
+
+    @functools.wraps(fn)
+    def wrapper(*args, **kwargs):
+        from ..errors import UserError
+
+        try:
+            return fn(*args, **kwargs)
+        except UserError as exc:
+            import os
+
+            if os.environ.get("COMMISSION_DEBUG"):
+                raise
+            for line in str(exc).splitlines() or [""]:
+                typer.echo(f"error: {line}", err=True)
+            raise typer.Exit(exc.exit_code) from None
+
+    return wrapper

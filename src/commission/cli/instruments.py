@@ -6,12 +6,13 @@ from typing import Annotated
 
 import typer
 
-from .common import JsonOpt, RegisterOpt, emit_json, open_register
+from .common import friendly, JsonOpt, RegisterOpt, emit_json, open_register
 
 app = typer.Typer(help="Test instruments and their calibration dates.", no_args_is_help=True)
 
 
 @app.command()
+@friendly
 def add(
     serial: Annotated[str, typer.Option(help="Serial number, as on the instrument.")],
     make: Annotated[str, typer.Option()],
@@ -37,6 +38,7 @@ def add(
 
 
 @app.command("list")
+@friendly
 def list_(register: RegisterOpt = None, as_json: JsonOpt = False) -> None:
     """List registered instruments."""
     from datetime import date

@@ -1,0 +1,1 @@
+"""The bundled demo scenario (invented site, readings, logs and photos)."""
