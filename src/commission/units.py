@@ -14,8 +14,6 @@ import re
 from dataclasses import dataclass
 from functools import lru_cache
 
-from .errors import UserError
-
 
 @dataclass(frozen=True)
 class Quantity:
@@ -221,7 +219,8 @@ def parse_reading(
     import pint
 
     q = QUANTITIES[quantity]
-    hint = f"a {quantity.replace('_', ' ')}, e.g. {q.examples} (a bare number is read in {item_unit})"
+    name = quantity.replace("_", " ")
+    hint = f"a {name}, e.g. {q.examples} (a bare number is read in {item_unit})"
     raw = normalise_text(text)
     if raw.lower() in ("nan", "inf", "-inf", "+inf", "infinity"):
         raise ValueError(f"'{text}' is not a finite number; expected {hint}")

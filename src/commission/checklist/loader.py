@@ -99,7 +99,8 @@ def _message(err: dict[str, Any]) -> str:
     if kind == "missing":
         return f"missing key '{field}'"
     if kind == "literal_error" and field == "kind":
-        return f"unknown kind {err.get('input')!r} (accepted: confirm, reading, choice, text, file, photo)"
+        return (f"unknown kind {err.get('input')!r} "
+                "(accepted: confirm, reading, choice, text, file, photo)")
     msg = err["msg"].removeprefix("Value error, ")
     if field and field not in ("items", "sections"):
         given = err.get("input")

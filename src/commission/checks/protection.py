@@ -290,5 +290,6 @@ def circuit_coordination(ctx: Context) -> Outcome:
     if in_a < ib:
         why = "the breaker is smaller than the element's current and will trip in service"
     else:
-        why = "the breaker does not protect the cable against overload; fit a smaller breaker or a larger cable"
+        why = ("the breaker does not protect the cable against overload; fit a smaller breaker "
+               "or a larger cable")
     return Outcome(FAIL, f"{text}: {why}", SRC_COORD, measured, expected)

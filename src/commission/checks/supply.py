@@ -83,7 +83,8 @@ def polarity(ctx: Context) -> Outcome:
     value = ctx.value
     ok = value is True or (isinstance(value, str) and value == ctx.param("correct_option"))
     shown = {True: "yes", False: "no"}.get(value, value) if isinstance(value, bool) else value
-    expected = Expected(None, value="yes" if isinstance(value, bool) else ctx.param("correct_option"))
+    wanted = "yes" if isinstance(value, bool) else ctx.param("correct_option")
+    expected = Expected(None, value=wanted)
     if ok:
         return Outcome(PASS, "polarity correct", SRC_POLARITY, Measured(shown, None), expected)
     return Outcome(

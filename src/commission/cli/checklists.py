@@ -6,7 +6,7 @@ from typing import Annotated
 
 import typer
 
-from .common import friendly, JsonOpt, emit_json
+from .common import JsonOpt, emit_json, friendly
 
 app = typer.Typer(help="Check, inspect and describe checklist files.", no_args_is_help=True)
 

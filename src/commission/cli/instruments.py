@@ -6,7 +6,7 @@ from typing import Annotated
 
 import typer
 
-from .common import friendly, JsonOpt, RegisterOpt, emit_json, open_register
+from .common import JsonOpt, RegisterOpt, emit_json, friendly, open_register
 
 app = typer.Typer(help="Test instruments and their calibration dates.", no_args_is_help=True)
 

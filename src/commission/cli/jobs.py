@@ -98,8 +98,8 @@ def show(
     for line in table(results, colour):
         typer.echo(line)
     typer.echo("")
-    typer.echo("! = critical. Verdicts: pass, fail, review (needs judgement or data), "
-               "n/a, pending.")
+    typer.echo("! = critical. Verdicts: pass, fail, review (needs judgement or data),")
+    typer.echo("n/a, pending.")
 
 
 def amend(

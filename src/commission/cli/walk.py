@@ -18,10 +18,10 @@ class _Tty:
         from ..present import use_colour
 
         self.colour = use_colour()
-        try:
+        import contextlib
+
+        with contextlib.suppress(ImportError):
             import readline  # noqa: F401  (line editing and history for input())
-        except ImportError:
-            pass
 
     def ask(self, prompt: str) -> str:
         return input(prompt)

@@ -34,10 +34,14 @@ def _png(path: Path, width: int, height: int, pixel) -> None:
 def main() -> None:
     HERE.mkdir(exist_ok=True)
     # Three plain pictures standing in for the site photos.
-    _png(HERE / "nameplate.png", 96, 64, lambda x, y: (200, 200, 190) if 8 < y < 56 else (40, 40, 40))
-    _png(HERE / "clamp-arrow.png", 96, 64,
-         lambda x, y: (230, 120, 20) if abs(y - 32) < 4 or (x > 70 and abs(y - 32) < 90 - x) else (250, 250, 250))
-    _png(HERE / "labels.png", 96, 64, lambda x, y: (250, 220, 0) if (x // 12 + y // 12) % 2 else (20, 20, 20))
+    light, dark, orange, yellow = (250, 250, 250), (30, 30, 30), (230, 120, 20), (250, 220, 0)
+
+    def arrow(x: int, y: int) -> tuple[int, int, int]:
+        return orange if abs(y - 32) < 4 or (x > 70 and abs(y - 32) < 90 - x) else light
+
+    _png(HERE / "nameplate.png", 96, 64, lambda x, y: (200, 200, 190) if 8 < y < 56 else dark)
+    _png(HERE / "clamp-arrow.png", 96, 64, arrow)
+    _png(HERE / "labels.png", 96, 64, lambda x, y: yellow if (x // 12 + y // 12) % 2 else dark)
 
     # Clamp capture: element at full output, importing, 50.02 Hz, 5 kS/s, 0.4 s.
     rate, f, u, p = 5000.0, 50.02, 231.0, 2790.0

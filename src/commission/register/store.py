@@ -7,6 +7,7 @@ register never stores a verdict: verdicts are derived from the entries.
 
 from __future__ import annotations
 
+import contextlib
 import getpass
 import hashlib
 import json
@@ -157,10 +158,9 @@ class Register:
     def close(self) -> None:
         if self._db is None:
             return
-        try:
+        # If another process holds the register, its own exit checkpoints.
+        with contextlib.suppress(sqlite3.Error):
             self._db.execute("PRAGMA wal_checkpoint(TRUNCATE)")
-        except sqlite3.Error:
-            pass  # another process holds the register; its own exit checkpoints
         self._db.close()
         self._db = None
 
@@ -317,7 +317,8 @@ class Register:
         return self._entries(job.id)
 
     # -- instruments ---------------------------------------------------------
-    def add_instrument(self, serial: str, make: str, model: str, calibration_due: str) -> Instrument:
+    def add_instrument(self, serial: str, make: str, model: str,
+                       calibration_due: str) -> Instrument:
         if self.db.execute("SELECT 1 FROM instruments WHERE serial = ?", (serial,)).fetchone():
             raise UserError(f"instrument '{serial}': already registered")
         with self._transaction():
@@ -380,7 +381,8 @@ class Register:
             seq += 1
 
     def has_blob(self, sha256: str) -> bool:
-        return self.db.execute("SELECT 1 FROM blobs WHERE sha256 = ?", (sha256,)).fetchone() is not None
+        row = self.db.execute("SELECT 1 FROM blobs WHERE sha256 = ?", (sha256,)).fetchone()
+        return row is not None
 
     # -- backup --------------------------------------------------------------
     def backup(self, dest: Path) -> None:

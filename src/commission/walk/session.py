@@ -131,7 +131,8 @@ class Walk:
                 self.term.say(f"  not recorded: {exc}")
                 continue
             entry = self.state.record(item, text, answer, self.instrument)
-            if answer.echo and (answer.echo.startswith("read as") or item.kind in ("file", "photo")):
+            shown = answer.echo.startswith("read as") or item.kind in ("file", "photo")
+            if answer.echo and shown:
                 self.term.say(f"  {answer.echo}")
             if entry is None:
                 self.term.say("  same as before; nothing added")

@@ -1,0 +1,127 @@
+"""The SQLite register: append-only entries, chunked files, backup, schema version."""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import os
+import sqlite3
+
+import pytest
+
+from commission.checklist import load
+from commission.register import Register
+from commission.register.schema import SCHEMA_VERSION
+from conftest import CHECKLIST
+
+
+@pytest.fixture
+def reg(register_path):
+    with Register(register_path) as r:
+        yield r
+
+
+@pytest.fixture
+def job(reg):
+    return reg.create_job(load(CHECKLIST), {"site": "Larch House"})
+
+
+def test_wal_and_full_sync(reg):
+    assert reg.db.execute("PRAGMA journal_mode").fetchone()[0] == "wal"
+    assert reg.db.execute("PRAGMA synchronous").fetchone()[0] == 2  # FULL
+    assert reg.db.execute("PRAGMA user_version").fetchone()[0] == SCHEMA_VERSION
+
+
+def test_entries_are_append_only(reg, job):
+    e = reg.add_entry(job, "supply.voltage", "answer", "231", 231.0)
+    with pytest.raises(sqlite3.IntegrityError, match="append-only"):
+        reg.db.execute("UPDATE entries SET raw = '999' WHERE id = ?", (e.id,))
+    with pytest.raises(sqlite3.IntegrityError, match="append-only"):
+        reg.db.execute("DELETE FROM entries WHERE id = ?", (e.id,))
+    second = reg.add_entry(job, "supply.voltage", "answer", "236", 236.0)
+    assert second.supersedes == e.id
+    assert [x.raw for x in reg.entries(job)] == ["231", "236"]
+
+
+def test_job_keeps_its_checklist_text_and_hash(reg, job):
+    text = CHECKLIST.read_text(encoding="utf-8")
+    assert job.checklist_text == text
+    assert job.checklist_sha256 == hashlib.sha256(text.encode()).hexdigest()
+    assert job.checklist_id == "diverter-1ph"
+    assert len(job.short_id) == 5
+    assert reg.find_job(job.short_id.lower()).uuid == job.uuid
+    assert reg.find_job(job.uuid[:8]).short_id == job.short_id
+
+
+def test_files_stored_in_1mib_chunks_and_streamed_back(reg, tmp_path):
+    data = os.urandom(2 * (1 << 20) + 12345)
+    path = tmp_path / "capture.bin"
+    path.write_bytes(data)
+    sha, size = reg.put_file(path)
+    assert sha == hashlib.sha256(data).hexdigest() and size == len(data)
+    chunks = list(reg.read_blob(sha))
+    assert [len(c) for c in chunks] == [1 << 20, 1 << 20, 12345]
+    assert b"".join(chunks) == data
+    # The same file again is stored once.
+    reg.put_file(path)
+    assert reg.db.execute("SELECT COUNT(*) FROM blob_chunks").fetchone()[0] == 3
+
+
+def test_backup_is_a_consistent_copy(reg, job, tmp_path):
+    reg.add_entry(job, "supply.voltage", "answer", "231", 231.0)
+    dest = tmp_path / "copy.sqlite3"
+    reg.backup(dest)
+    with Register(dest, create=False) as copy:
+        jobs = copy.jobs()
+        assert [j.uuid for j in jobs] == [job.uuid]
+        assert [e.raw for e in copy.entries(jobs[0])] == ["231"]
+        assert copy.db.execute("PRAGMA integrity_check").fetchone()[0] == "ok"
+
+
+def test_newer_schema_is_refused(register_path):
+    with Register(register_path):
+        pass
+    db = sqlite3.connect(register_path)
+    db.execute(f"PRAGMA user_version = {SCHEMA_VERSION + 1}")
+    db.close()
+    from commission.register import RegisterError
+
+    with pytest.raises(RegisterError, match="newer release"):
+        Register(register_path).open()
+
+
+def test_not_a_register(tmp_path, cli):
+    bad = tmp_path / "junk.sqlite3"
+    bad.write_bytes(b"this is not sqlite" * 100)
+    result = cli("jobs", "--register", bad)
+    assert result.exit_code == 2
+    assert result.stderr.startswith(f"error: {bad}: not")
+
+
+def test_register_option_beats_environment(cli, tmp_path, monkeypatch):
+    chosen = tmp_path / "chosen.sqlite3"
+    result = cli("new", "--checklist", "diverter-1ph", "--site", "A", "--register", chosen)
+    assert result.exit_code == 0
+    assert chosen.exists()
+    env_jobs = json.loads(cli("jobs", "--json").stdout)
+    assert env_jobs == []
+    opt_jobs = json.loads(cli("jobs", "--json", "--register", chosen).stdout)
+    assert [j["site"] for j in opt_jobs] == ["A"]
+
+
+def test_amend_is_recorded_as_entries(cli, new_job):
+    job = new_job(site="Larch House")
+    result = cli("amend", job, "--client", "R. Achterberg", "--site", "Larch House (annexe)")
+    assert result.exit_code == 0
+    data = json.loads(cli("show", job, "--json").stdout)
+    assert data["job"]["client"] == "R. Achterberg"
+    assert data["job"]["site"] == "Larch House (annexe)"
+    assert cli("amend", job).exit_code == 2
+
+
+def test_backup_command(cli, new_job, tmp_path):
+    new_job()
+    dest = tmp_path / "b.sqlite3"
+    assert cli("backup", dest).exit_code == 0
+    again = cli("backup", dest)
+    assert again.exit_code == 2 and "already exists" in again.stderr
