@@ -83,6 +83,10 @@ _NUMBER = re.compile(
 )
 
 
+# Characters a unit may contain; anything else is refused before pint sees it.
+_UNIT_CHARS = re.compile(r"[^A-Za-z0-9\s/*^²³°Ωμ%·.\-℃]")
+
+
 @dataclass(frozen=True)
 class Parsed:
     """A reading as stored: SI value, the unit typed (None for a bare number)."""
@@ -91,6 +95,14 @@ class Parsed:
     si_unit: str
     unit_typed: str | None
     shown: str  # the value in the item's unit, for the echo ("231 V")
+
+
+def quote_typed(text: str, limit: int = 40) -> str:
+    """Quote what a person typed for a message: one line, control characters shown."""
+    shown = "".join(c if c.isprintable() else repr(c)[1:-1] for c in text)
+    if len(shown) > limit:
+        shown = shown[: limit - 1] + "…"
+    return f"'{shown}'"
 
 
 def normalise_text(text: str) -> str:
@@ -120,8 +132,6 @@ def registry():
 
 def _pint_unit(symbol: str, quantity: Quantity | None = None):
     """The pint unit for a symbol as typed, or None if pint does not know it."""
-    import pint
-
     spelled = to_pint(symbol)
     if quantity is not None and quantity.name in ("temperature", "temperature_difference"):
         # On a temperature item "63 C" means °C, not coulombs; "F" is °F.
@@ -133,10 +143,11 @@ def _pint_unit(symbol: str, quantity: Quantity | None = None):
                 spelled = "degF"
         elif bare in ("k", "kelvin", "degc", "c"):
             spelled = "kelvin"
+    if not spelled or _UNIT_CHARS.search(symbol):
+        return None
     try:
         return registry().parse_units(spelled)
-    except (pint.errors.UndefinedUnitError, pint.errors.DefinitionSyntaxError,
-            AttributeError, TypeError, ValueError, SyntaxError, KeyError):
+    except Exception:  # pint's parser raises many kinds on junk; any of them means "unknown"
         return None
 
 
@@ -223,15 +234,15 @@ def parse_reading(
     hint = f"a {name}, e.g. {q.examples} (a bare number is read in {item_unit})"
     raw = normalise_text(text)
     if raw.lower() in ("nan", "inf", "-inf", "+inf", "infinity"):
-        raise ValueError(f"'{text}' is not a finite number; expected {hint}")
+        raise ValueError(f"{quote_typed(text)} is not a finite number; expected {hint}")
     try:
         number, unit_text = parse_number(raw)
     except ValueError as exc:
         if str(exc) == "not a number":
-            raise ValueError(f"'{text}' is not a number; expected {hint}") from None
+            raise ValueError(f"{quote_typed(text)} is not a number; expected {hint}") from None
         raise
     if not math.isfinite(number):
-        raise ValueError(f"'{text}' is not a finite number; expected {hint}")
+        raise ValueError(f"{quote_typed(text)} is not a finite number; expected {hint}")
     typed = unit_text or None
     symbol = unit_text or item_unit
     unit = _pint_unit(symbol, q)
@@ -244,19 +255,21 @@ def parse_reading(
     except pint.errors.DimensionalityError:
         other = quantity_of_unit(unit_text)
         what = f" (a {other.replace('_', ' ')})" if other else ""
-        raise ValueError(f"'{text}' is not {hint.split(',')[0]}{what}; expected {hint}") from None
+        raise ValueError(
+            f"{quote_typed(text)} is not {hint.split(',')[0]}{what}; expected {hint}"
+        ) from None
     except OverflowError:
-        raise ValueError(f"'{text}' is too large; expected {hint}") from None
+        raise ValueError(f"{quote_typed(text)} is too large; expected {hint}") from None
     if not (math.isfinite(si) and math.isfinite(shown_value)):
-        raise ValueError(f"'{text}' is too large; expected {hint}")
+        raise ValueError(f"{quote_typed(text)} is too large; expected {hint}")
     if q.minimum is not None and si < q.minimum:
         raise ValueError(
-            f"'{text}' is impossible: a {quantity.replace('_', ' ')} cannot be below "
+            f"{quote_typed(text)} is impossible: a {quantity.replace('_', ' ')} cannot be below "
             f"{format_number(q.minimum)} {q.si_unit}"
         )
     if q.maximum is not None and si > q.maximum:
         raise ValueError(
-            f"'{text}' is impossible: a {quantity.replace('_', ' ')} cannot exceed "
+            f"{quote_typed(text)} is impossible: a {quantity.replace('_', ' ')} cannot exceed "
             f"{format_number(q.maximum)} {q.si_unit}"
         )
     lo_ok = accept_min is None or shown_value >= accept_min
@@ -265,7 +278,8 @@ def parse_reading(
         lo = "…" if accept_min is None else format_number(accept_min)
         hi = "…" if accept_max is None else format_number(accept_max)
         raise ValueError(
-            f"'{text}' ({format_number(shown_value)} {item_unit}) is outside what this reading "
+            f"{quote_typed(text)} ({format_number(shown_value)} {item_unit}) is outside what "
+            "this reading "
             f"can be ({lo} to {hi} {item_unit}); check the value and its unit"
         )
     # Round off binary noise from unit conversion (150 L → 0.15 m³, not 0.15000000000000002).

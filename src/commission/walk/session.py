@@ -72,6 +72,9 @@ class Walk:
                     self._ask_item(i, second_pass=True)
         except _Quit:
             return self._stopped()
+        except EOFError:  # Ctrl-D: leave as :quit does
+            self.term.say("")
+            return self._stopped()
         except KeyboardInterrupt:
             self.term.say("")
             return self._stopped(interrupted=True)
@@ -239,7 +242,10 @@ class Walk:
             before = self._last.get(r.item.id)
             now = (r.verdict, r.reason)
             if r.item.id == item_id:
-                if own:
+                if own and r.item.check is None and r.item.kind != "confirm" \
+                        and r.verdict == "pass":
+                    self.term.say("  recorded")
+                elif own:
                     for line in verdict_lines(r, self.term.colour):
                         self.term.say(line)
             elif before != now and r.entry is not None and r.applicable:
@@ -278,8 +284,8 @@ class Walk:
 
     def _stopped(self, interrupted: bool = False) -> int:
         kept = sum(1 for e in self.state.entries if e.action != "detail")
-        self.term.say(f"Stopped. Everything entered is kept ({kept} entries). "
-                      f"Resume with: commission walk {self.state.job.short_id}")
+        self.term.say(f"Stopped. Everything entered is kept ({kept} entries).")
+        self.term.say(f"Resume with: commission walk {self.state.job.short_id}")
         return 130 if interrupted else 0
 
 

@@ -7,7 +7,7 @@ from pathlib import Path
 from typing import Any
 
 from ..checklist.model import Item
-from ..units import format_number, parse_reading
+from ..units import format_number, parse_reading, quote_typed
 
 YES = {"y", "yes"}
 NO = {"n", "no"}
@@ -37,7 +37,7 @@ def parse_answer(item: Item, text: str, base: Path | None = None) -> Answer:
             return Answer(True, echo="yes")
         if word in NO:
             return Answer(False, echo="no")
-        raise BadAnswer(f"'{raw}' is not yes or no; type y or n")
+        raise BadAnswer(f"{quote_typed(raw)} is not yes or no; type y or n")
     if item.kind == "reading":
         assert item.quantity and item.unit
         acc = item.accept
@@ -56,7 +56,9 @@ def parse_answer(item: Item, text: str, base: Path | None = None) -> Answer:
             option = options[int(raw) - 1]
             return Answer(option, echo=f"read as {option}")
         listed = ", ".join(f"{n} {o}" for n, o in enumerate(options, 1))
-        raise BadAnswer(f"'{raw}' is not one of the options; type its number or its name: {listed}")
+        raise BadAnswer(
+            f"{quote_typed(raw)} is not one of the options; type its number or name: {listed}"
+        )
     if item.kind == "text":
         return Answer(raw, echo="")
     # file and photo: a path to something taken on site
@@ -65,14 +67,14 @@ def parse_answer(item: Item, text: str, base: Path | None = None) -> Answer:
         path = base / path
     if not path.is_file():
         what = "a folder" if path.is_dir() else "no such file"
-        raise BadAnswer(f"'{raw}': {what}; give the path of the {item.kind}")
+        raise BadAnswer(f"{quote_typed(raw)}: {what}; give the path of the {item.kind}")
     size = path.stat().st_size
     if size == 0:
-        raise BadAnswer(f"'{raw}': the file is empty")
+        raise BadAnswer(f"{quote_typed(raw)}: the file is empty")
     if item.kind == "photo":
         with path.open("rb") as handle:
             head = handle.read(8)
         kind = next((k for magic, k in _IMAGE_MAGIC.items() if head.startswith(magic)), None)
         if kind is None:
-            raise BadAnswer(f"'{raw}': not a JPEG or PNG image (accepted: .jpg, .png)")
+            raise BadAnswer(f"{quote_typed(raw)}: not a JPEG or PNG image (accepted: .jpg, .png)")
     return Answer(path, echo=f"{path.name}, {format_number(size)} bytes", path=path)
