@@ -63,7 +63,9 @@ RCD_BREAK_TIME_MS: dict[str, dict[float, tuple[float | None, float | None]]] = {
 }
 
 
-def rcd_break_time_limits_ms(delay_class: str, multiple: float) -> tuple[float | None, float | None]:
+def rcd_break_time_limits_ms(
+    delay_class: str, multiple: float
+) -> tuple[float | None, float | None]:
     """(min, max) break time [ms] for an RCD test at ``multiple`` × IΔn.
 
     delay_class : 'general' (no time delay) or 'S' (selective)
@@ -76,7 +78,9 @@ def rcd_break_time_limits_ms(delay_class: str, multiple: float) -> tuple[float |
         raise ValueError(f"no break-time limit for {multiple} × IΔn (1, 2 or 5)") from None
 
 
-def insulation_min_mohm(circuit_nominal_v: float, selv_or_pelv: bool = False) -> tuple[float, float]:
+def insulation_min_mohm(
+    circuit_nominal_v: float, selv_or_pelv: bool = False
+) -> tuple[float, float]:
     """(test voltage [V DC], minimum insulation resistance [MΩ]), IEC 60364-6 [5].
 
     circuit_nominal_v : nominal voltage of the circuit under test [V]

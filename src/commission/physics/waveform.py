@@ -55,9 +55,12 @@ _MIN_RATE_HZ = 400.0
 _TUNE_S = 0.25
 # Decimate the sine fit to at most this many points: its only job is the frequency.
 _FIT_MAX_POINTS = 8000
-# A cycle whose length differs from the expected one by more than this is irregular.
+# A cycle is irregular (a glitch or dropout in the voltage) when its length is outside
+# this range of the expected period, or differs from the previous cycle's by more than
+# _CYCLE_STEP; real supplies drift far more slowly (our choice).
 _CYCLE_MIN_RATIO = 0.8
 _CYCLE_MAX_RATIO = 1.25
+_CYCLE_STEP = 0.05
 # Hysteresis of the zero-crossing detector, as a fraction of the fundamental amplitude.
 _HYSTERESIS = 0.2
 # Window length: about 200 ms, i.e. 10 cycles at 50 Hz and 12 at 60 Hz (IEC 61000-4-7,
@@ -515,6 +518,7 @@ class CaptureAccumulator:
         self._state = 0
         self._last_y = None
         self._last_zero = None
+        self._last_gap = None
         self._fallback_limit = int(math.ceil((self._window_cycles + 4) * self._period))
         self._tuned = True
 
@@ -558,8 +562,12 @@ class CaptureAccumulator:
     def _crossing(self, pos):
         if self._open:
             gap = pos - self._open[-1]
-            if not _CYCLE_MIN_RATIO * self._period <= gap <= _CYCLE_MAX_RATIO * self._period:
+            jump = abs(gap - self._last_gap) if self._last_gap else 0.0
+            self._last_gap = gap
+            if (not _CYCLE_MIN_RATIO * self._period <= gap <= _CYCLE_MAX_RATIO * self._period
+                    or jump > _CYCLE_STEP * self._period):
                 self._irregular += 1
+                self._last_gap = None
                 self._open = [pos]
                 return
         self._open.append(pos)
@@ -602,9 +610,8 @@ class CaptureAccumulator:
         sv2 = float(wv @ v)
         si2 = float(wi @ i)
         svi = float(wv @ i)
-        z = np.exp((-2j * math.pi * cycles / length) * (n - pa))
-        powers = np.cumprod(np.broadcast_to(z, (self._orders, z.size)), axis=0)
-        phasors = (powers @ np.stack((wv, wi), axis=1)) * (2.0 / length)  # peak phasors
+        phasors = _projections(np.exp((-2j * math.pi * cycles / length) * (n - pa)),
+                               wv, wi, self._orders) * (2.0 / length)  # peak phasors
         self._vh2 += 0.5 * np.abs(phasors[:, 0]) ** 2
         self._ih2 += 0.5 * np.abs(phasors[:, 1]) ** 2
         self._cross += phasors[0, 1] * np.conj(phasors[0, 0])
@@ -680,6 +687,26 @@ class CaptureAccumulator:
             window_p_w=wp,
             irregular_cycles=self._irregular,
         )
+
+
+def _projections(z, wv, wi, orders):
+    """``sum_n wv[n]*z[n]**h`` and the same for ``wi``, for h = 1...orders, as (orders, 2).
+
+    The powers of z are built by repeated multiplication, and the sums done as one real
+    matrix product on the interleaved real/imaginary parts (much faster than a
+    complex-by-real matrix product in numpy).
+    """
+    powers = np.empty((orders, z.size), dtype=complex)
+    powers[0] = z
+    for h in range(1, orders):
+        np.multiply(powers[h - 1], z, out=powers[h])
+    weights = np.zeros((2 * z.size, 4))
+    weights[0::2, 0] = wv
+    weights[0::2, 1] = wi
+    weights[1::2, 2] = wv
+    weights[1::2, 3] = wi
+    out = powers.view(np.float64) @ weights
+    return out[:, 0:2] + 1j * out[:, 2:4]
 
 
 def _centred_mean(x, length):
@@ -813,8 +840,8 @@ class ClampCheck:
         ``'pass'``, ``'fail'`` or ``'review'``.
     likely_cause : str
         ``'as expected'``, ``'reversed'``, ``'another phase'``,
-        ``'another phase and reversed'``, ``'reactive load or wrong reference'``, or
-        ``'no expectation'``.
+        ``'another phase and reversed'``, ``'reactive load or wrong reference'``,
+        ``'no expectation'``, or ``'unknown'`` (no current fundamental).
     reason : str
         One line a person can act on.
     """

@@ -1,0 +1,50 @@
+"""Reading instrument files into arrays, with one-line errors a person can act on.
+
+* waveform captures: CSV (:func:`read_capture_csv`) and two-channel PCM WAV
+  (:func:`read_capture_wav`, or :func:`open_capture_wav` to read an hour-long file in chunks);
+* logs: heating and heatsink-soak temperature logs (:func:`read_heating_log`,
+  :func:`read_soak_log`) and grid-power logs of regulation (:func:`read_regulation_log`).
+
+Every reader raises :class:`CaptureError` for a file it cannot use; the message is one line
+naming the file, the line or column, and what would be accepted. Non-fatal findings, such as
+converter readings at the rails, come back as warnings on the result.
+"""
+
+from __future__ import annotations
+
+
+class CaptureError(Exception):
+    """A file the user gave cannot be read as a capture or log; the message says why."""
+
+    def __init__(self, message: str):
+        super().__init__(message)
+        self.message = message
+
+
+from commission.captures.csv_capture import WaveformCapture, read_capture_csv  # noqa: E402
+from commission.captures.logs import (  # noqa: E402
+    GridPowerLog,
+    TemperatureLog,
+    read_heating_log,
+    read_regulation_log,
+    read_soak_log,
+)
+from commission.captures.wav_capture import (  # noqa: E402
+    WavCaptureStream,
+    open_capture_wav,
+    read_capture_wav,
+)
+
+__all__ = [
+    "CaptureError",
+    "GridPowerLog",
+    "TemperatureLog",
+    "WaveformCapture",
+    "WavCaptureStream",
+    "open_capture_wav",
+    "read_capture_csv",
+    "read_capture_wav",
+    "read_heating_log",
+    "read_regulation_log",
+    "read_soak_log",
+]
