@@ -31,27 +31,6 @@ _UPCOMING = {
         ("file",),
         {"expect": Input("'import' or 'export' (constant or choice item)", **_opt)},
     ),
-    "clamp_known_load": (
-        "clamp direction and size from a known-load test",
-        ("reading",),
-        {
-            "before": Input("grid reading before the load (power reading)", **_opt),
-            "load": Input("the known load's power (power reading)", **_opt),
-        },
-    ),
-    "heating_rate": (
-        "heating rate against the element's power",
-        ("reading", "file"),
-        {
-            "volume": Input("stored volume (volume reading)", **_opt),
-            "rated_power": Input("element nameplate power", **_opt),
-            "cold_resistance": Input("element cold resistance", **_opt),
-            "supply_voltage": Input("measured supply voltage", **_opt),
-            "start_temp": Input("temperature at the start", **_opt),
-            "end_temp": Input("temperature at the end", **_opt),
-            "minutes": Input("time between them", **_opt),
-        },
-    ),
     "heatsink_soak": (
         "heatsink steady state from a soak log",
         ("file",),
@@ -60,21 +39,6 @@ _UPCOMING = {
             "worst_ambient": Input("worst expected ambient", **_opt),
             "limit": Input("heatsink limit temperature", **_opt),
         },
-    ),
-    "thermostat_open_current": (
-        "element current with the thermostat open",
-        ("reading",),
-        {},
-    ),
-    "thermostat_opening": (
-        "thermostat opening temperature against its set point",
-        ("reading",),
-        {"set_point": Input("thermostat set point (temperature reading)", **_opt)},
-    ),
-    "stored_water_regime": (
-        "how the store reaches 60 °C",
-        ("choice",),
-        {"highest_temp": Input("highest store temperature observed", **_opt)},
     ),
     "regulation_log": (
         "grid power held in the dead band in automatic mode",
