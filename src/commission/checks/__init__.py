@@ -4,7 +4,7 @@ Importing this package registers every check; each module holds the checks of
 one topic and calls :mod:`commission.physics` for the numbers.
 """
 
-from . import clamp, controls, element, heating, protection, supply, upcoming  # noqa: F401  (registers the checks)
+from . import clamp, controls, element, heating, protection, recordings, supply  # noqa: F401  (registers the checks)
 from .registry import CHECKS, FAIL, NA, PASS, PENDING, REVIEW, worst
 
 __all__ = ["CHECKS", "FAIL", "NA", "PASS", "PENDING", "REVIEW", "worst"]

@@ -23,6 +23,7 @@ from .registry import (
     Context,
     Expected,
     Measured,
+    MissingFile,
     MissingInput,
     Outcome,
     worst,
@@ -78,8 +79,13 @@ def evaluate(
     checklist: Checklist,
     entries: Iterable[Entry],
     instruments: dict[int, Instrument] | None = None,
+    files: Any = None,
 ) -> list[Result]:
-    """One Result per item, in walk order."""
+    """One Result per item, in walk order.
+
+    ``files`` gives checks the bytes of recorded files: an object with
+    ``path(sha256) -> Path | None`` and a ``memo`` dict (see walk.state.FileStore).
+    """
     instruments = instruments or {}
     current, history = current_entries(entries)
     applicable: dict[str, bool] = {}
@@ -109,7 +115,7 @@ def evaluate(
             results.append(Result(**base, verdict=NA, reason=f"n/a: {entry.raw}",
                                   source="installer's statement"))
             continue
-        outcome = _judge(item, entry.value, current, applicable, checklist)
+        outcome = _judge(item, entry.value, current, applicable, checklist, files)
         verdict, reason = outcome.verdict, outcome.reason
         inst = instruments.get(entry.instrument_id) if entry.instrument_id else None
         if inst is not None and entry.at[:10] > inst.calibration_due:
@@ -146,7 +152,7 @@ def _item_source(item: Item, checklist: Checklist) -> str:
 
 
 def _judge(item: Item, value: Any, current: dict[str, Entry], applicable: dict[str, bool],
-           checklist: Checklist) -> Outcome:
+           checklist: Checklist, files: Any = None) -> Outcome:
     source = _item_source(item, checklist)
     if item.check is None:
         if item.kind == "confirm":
@@ -175,7 +181,7 @@ def _judge(item: Item, value: Any, current: dict[str, Entry], applicable: dict[s
             inputs[name] = spec["const"] if isinstance(spec, dict) else spec
     params = {k: p.default for k, p in definition.params.items()}
     params.update(item.check.params)
-    ctx = Context(item.id, value, inputs, refs, params)
+    ctx = Context(item.id, value, inputs, refs, params, {"files": files})
     try:
         return definition.fn(ctx)
     except MissingInput as missing:
@@ -183,6 +189,9 @@ def _judge(item: Item, value: Any, current: dict[str, Entry], applicable: dict[s
         where = f" (item {missing.ref})" if missing.ref else ""
         return Outcome(REVIEW, f"waiting for {missing.name}{where}: {what}".rstrip(": "),
                        definition.source)
+    except MissingFile as missing:
+        return Outcome(REVIEW, f"file {missing.name} is not available here, so this check "
+                       "cannot be re-evaluated", definition.source)
     except (ValueError, ArithmeticError, TypeError) as exc:
         return Outcome(REVIEW, f"check {definition.name} could not decide: {exc}",
                        definition.source)

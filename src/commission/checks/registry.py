@@ -52,7 +52,8 @@ class Expected:
         if self.value is not None:
             return f"{self.value}{u}"
         if self.min is not None and self.max is not None:
-            return f"{f(self.min)}–{f(self.max)}{u}"
+            dash = " to " if self.min < 0 else "–"
+            return f"{f(self.min)}{dash}{f(self.max)}{u}"
         if self.max is not None:
             return f"≤ {f(self.max)}{u}"
         if self.min is not None:
@@ -115,6 +116,33 @@ class Context:
 
     def param(self, name: str) -> Any:
         return self.params[name]
+
+    def file_path(self, value: Any):
+        """Local path of a recorded file or photo, or MissingFile if it is not at hand."""
+        files = self.extra.get("files")
+        if not isinstance(value, dict) or "sha256" not in value:
+            raise ValueError("expected a recorded file")
+        path = files.path(value["sha256"]) if files is not None else None
+        if path is None:
+            raise MissingFile(value.get("name", value["sha256"][:12]))
+        return path
+
+    def memo(self, key: tuple, compute: Callable[[], Any]) -> Any:
+        """Reuse an expensive analysis of the same file within one file store."""
+        files = self.extra.get("files")
+        if files is None:
+            return compute()
+        if key not in files.memo:
+            files.memo[key] = compute()
+        return files.memo[key]
+
+
+class MissingFile(Exception):
+    """A recorded file's bytes are not available (e.g. a record without attachments)."""
+
+    def __init__(self, name: str):
+        super().__init__(name)
+        self.name = name
 
 
 @dataclass(frozen=True)

@@ -2,13 +2,52 @@
 
 from __future__ import annotations
 
+import hashlib
+import shutil
+import tempfile
+import weakref
 from dataclasses import dataclass, field
+from pathlib import Path
 
 from ..checklist import Loaded, parse
 from ..checklist.model import Item
 from ..checks.evaluate import Result, evaluate, job_status
 from ..register.store import Entry, Instrument, Job, Register
 from .values import Answer
+
+
+class FileStore:
+    """Recorded files as local paths for the checks: streamed out of the register once
+    into a private cache folder, verified by SHA-256."""
+
+    def __init__(self, reg: Register):
+        self.reg = reg
+        self.memo: dict = {}
+        self._paths: dict[str, Path | None] = {}
+        self._dir: Path | None = None
+
+    def path(self, sha256: str) -> Path | None:
+        if sha256 in self._paths:
+            return self._paths[sha256]
+        found = None
+        if self.reg.has_blob(sha256):
+            if self._dir is None:
+                self._dir = Path(tempfile.mkdtemp(prefix="commission-files-"))
+            target = self._dir / sha256
+            digest = hashlib.sha256()
+            with target.open("wb") as out:
+                for chunk in self.reg.read_blob(sha256):
+                    digest.update(chunk)
+                    out.write(chunk)
+            found = target if digest.hexdigest() == sha256 else None
+        self._paths[sha256] = found
+        return found
+
+    def close(self) -> None:
+        if self._dir is not None:
+            shutil.rmtree(self._dir, ignore_errors=True)
+            self._dir = None
+        self._paths.clear()
 
 
 @dataclass
@@ -18,6 +57,7 @@ class JobState:
     loaded: Loaded = field(init=False)
     instruments: dict[int, Instrument] = field(init=False)
     entries: list[Entry] = field(init=False)
+    files: FileStore = field(init=False)
 
     def __post_init__(self) -> None:
         # The job keeps the checklist text it was made with: a changed file on disk
@@ -25,13 +65,15 @@ class JobState:
         self.loaded = parse(self.job.checklist_text, f"job {self.job.short_id} checklist")
         self.instruments = {i.id: i for i in self.reg.instruments()}
         self.entries = self.reg.entries(self.job)
+        self.files = FileStore(self.reg)
+        weakref.finalize(self, self.files.close)
 
     @property
     def checklist(self):
         return self.loaded.checklist
 
     def results(self) -> list[Result]:
-        return evaluate(self.checklist, self.entries, self.instruments)
+        return evaluate(self.checklist, self.entries, self.instruments, self.files)
 
     def status(self, results: list[Result] | None = None) -> str:
         return job_status(results if results is not None else self.results())
