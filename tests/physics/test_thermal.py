@@ -127,3 +127,20 @@ def test_refuses_bad_logs():
         thermal.fit_first_order([0, 1, 2], [20, 21, 22])
     with pytest.raises(ValueError):
         thermal.fit_first_order([0, 1, 2, 2, 3, 4], [20, 21, 22, 23, 24, 25])
+
+
+def test_soak_far_too_short_is_review_not_pass():
+    """A soak of a tenth of a time constant cannot show where the heatsink settles: the
+    first-order model (Incropera, lumped capacitance) heading to 70 °C with τ = 30 min,
+    logged for 3 minutes, must not pass against an 80 °C limit."""
+    import numpy as np
+
+    from commission.physics import thermal
+
+    t = np.arange(0.0, 181.0, 5.0)
+    rng = np.random.default_rng(7)
+    temp = 70.0 - (70.0 - 25.0) * np.exp(-t / 1800.0) + rng.normal(0.0, 0.1, t.size)
+    fit = thermal.fit_first_order(t, temp)
+    prediction = thermal.predict_worst_case(fit, 25.0)
+    verdict = thermal.soak_verdict(fit, prediction, 80.0)
+    assert verdict.verdict == "review"
