@@ -1,0 +1,1 @@
+"""The handover record: the PDF, its embedded machine-readable record, and its signatures."""
