@@ -13,7 +13,8 @@ from .register.store import Entry, Instrument
 from .walk.state import JobState
 
 
-def _entry_json(e: Entry, instruments: dict[int, Instrument]) -> dict[str, Any]:
+def _entry_json(e: Entry, instruments: dict[int, Instrument],
+                uuids: dict[int, str]) -> dict[str, Any]:
     inst = instruments.get(e.instrument_id) if e.instrument_id else None
     return {
         "entry": e.uuid,
@@ -24,11 +25,12 @@ def _entry_json(e: Entry, instruments: dict[int, Instrument]) -> dict[str, Any]:
         "instrument": inst.serial if inst else None,
         "time": e.at,
         "by": e.by,
-        "supersedes": e.supersedes,
+        "supersedes": uuids.get(e.supersedes) if e.supersedes else None,
     }
 
 
-def item_json(r: Result, instruments: dict[int, Instrument]) -> dict[str, Any]:
+def item_json(r: Result, instruments: dict[int, Instrument],
+              uuids: dict[int, str] | None = None) -> dict[str, Any]:
     e = r.entry
     answered = e is not None and e.action == "answer"
     si_unit = None
@@ -53,7 +55,7 @@ def item_json(r: Result, instruments: dict[int, Instrument]) -> dict[str, Any]:
         "source": r.source,
         "instrument": inst.serial if inst else None,
         "time": e.at if e else None,
-        "history": [_entry_json(h, instruments) for h in r.history],
+        "history": [_entry_json(h, instruments, uuids or {}) for h in r.history],
     }
 
 
@@ -61,9 +63,10 @@ def job_json(state: JobState, results: list[Result] | None = None) -> dict[str, 
     from .checks.evaluate import status_reasons
 
     results = results if results is not None else state.results()
+    uuids = {e.id: e.uuid for e in state.entries}
     return {
         "job": state.job.as_json(),
         "status": state.status(results),
         "status_reasons": status_reasons(results),
-        "items": [item_json(r, state.instruments) for r in results],
+        "items": [item_json(r, state.instruments, uuids) for r in results],
     }

@@ -13,6 +13,10 @@ import pytest
 from conftest import ROOT
 
 COMMANDS = [[], ["new"], ["jobs"], ["show"], ["amend"], ["walk"], ["backup"], ["demo"],
+            ["report"], ["verify"], ["import"], ["blank"], ["countersign"], ["identity"],
+            ["identity", "new"], ["trust"], ["trust", "add"], ["analyse"],
+            ["analyse", "capture"], ["analyse", "heating"], ["analyse", "soak"],
+            ["analyse", "regulation"],
             ["checklists"], ["checklists", "validate"], ["checklists", "show"],
             ["checklists", "schema"], ["checklists", "list"], ["instruments"],
             ["instruments", "add"], ["instruments", "list"]]
@@ -62,8 +66,11 @@ def test_instruments(cli):
 def test_demo_runs_and_shows(cli, tmp_path):
     result = cli("demo", "--out", tmp_path / "demo")
     assert result.exit_code == 0, result.stderr
-    assert "Status:" in result.stdout
+    assert "status ready" in result.stdout
+    assert "verified here:  yes" in result.stdout
+    assert "commission verify" in result.stdout
     assert (tmp_path / "demo" / "register.sqlite3").exists()
+    assert list((tmp_path / "demo").glob("record-*.pdf"))
     again = cli("demo", "--out", tmp_path / "demo")
     assert again.exit_code == 2 and "already exists" in again.stderr
 

@@ -8,7 +8,7 @@ import sys
 
 import typer
 
-from . import checklists, demo, instruments, jobs, walk
+from . import analyse, checklists, demo, identity, instruments, jobs, report, walk
 from .common import friendly
 
 app = typer.Typer(
@@ -24,6 +24,9 @@ app = typer.Typer(
 )
 app.add_typer(checklists.app, name="checklists")
 app.add_typer(instruments.app, name="instruments")
+app.add_typer(identity.identity_app, name="identity")
+app.add_typer(identity.trust_app, name="trust")
+app.add_typer(analyse.app, name="analyse")
 app.command("new")(friendly(jobs.new))
 app.command("jobs")(friendly(jobs.jobs))
 app.command("show")(friendly(jobs.show))
@@ -31,6 +34,11 @@ app.command("amend")(friendly(jobs.amend))
 app.command("walk")(friendly(walk.walk))
 app.command("backup")(friendly(jobs.backup))
 app.command("demo")(friendly(demo.demo))
+app.command("countersign")(friendly(identity.countersign))
+app.command("report")(friendly(report.report))
+app.command("verify")(friendly(report.verify))
+app.command("import")(friendly(report.import_))
+app.command("blank")(friendly(report.blank))
 
 
 @app.callback()
@@ -68,6 +76,13 @@ def main(argv: list[str] | None = None) -> int:
             raise
         where = f"{exc.filename}: " if getattr(exc, "filename", None) else ""
         sys.stderr.write(f"error: {where}{exc.strerror or exc}\n")
+        return 1
+    except Exception as exc:  # last resort: one line, never a traceback for a person
+        if debug:
+            raise
+        text = " ".join(str(exc).split())[:200]
+        sys.stderr.write(f"error: internal problem ({type(exc).__name__}: {text}); nothing "
+                         "recorded was lost; COMMISSION_DEBUG=1 shows the details\n")
         return 1
     return 0
 

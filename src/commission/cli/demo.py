@@ -7,14 +7,16 @@ from typing import Annotated
 
 import typer
 
+DEMO_PASSPHRASE = "larch-house-demo"  # the demo's own throw-away key; never for real work
+
 
 def demo(
     out: Annotated[
         Path | None,
-        typer.Option(help="Folder for the demo's register (default: a new temporary folder)."),
+        typer.Option(help="Folder for the demo (default: a new temporary folder)."),
     ] = None,
 ) -> None:
-    """Run the bundled demo: a job walked from its answers file, then shown."""
+    """Run the bundled demo: walk an invented job, write its signed record and verify it."""
     import os
     import tempfile
 
@@ -23,38 +25,59 @@ def demo(
     from ..checklist import load
     from ..errors import UserError
     from ..register import Register
+    from ..report import identity, trust
+    from ..report.build import make
+    from ..report.pdf import load_form
+    from ..report.verify import verify
     from ..resources import demo_dir, resolve
     from ..walk.answers import apply_answers
     from ..walk.state import JobState
-    from .jobs import show
 
     folder = Path(out) if out else Path(tempfile.mkdtemp(prefix="commission-demo-"))
     try:
         folder.mkdir(parents=True, exist_ok=True)
     except OSError as exc:
         raise UserError(f"{folder}: cannot create ({exc.strerror})") from None
+    folder = folder.resolve()
     register = folder / "register.sqlite3"
     if register.exists():
         raise UserError(f"{register}: already exists; give --out a new folder")
-    os.environ["COMMISSION_HOME"] = str(folder)
+    os.environ["COMMISSION_HOME"] = str(folder)  # identity and trust store live here
     scenario = yaml.safe_load((demo_dir() / "scenario.yaml").read_text(encoding="utf-8"))
+    details = scenario["job"]
     loaded = load(resolve("checklists", scenario["checklist"]))
+    passphrase_file = folder / "demo-passphrase.txt"
+    passphrase_file.write_text(DEMO_PASSPHRASE + "\n", encoding="utf-8")
+    passphrase_file.chmod(0o600)
+    ident, _ = identity.create_identity(details["installer"].split(",")[0],
+                                        details["installer_registration"],
+                                        passphrase=DEMO_PASSPHRASE, years=5)
+    trust.add(ident.cert_file, "demo installer")
     with Register(register) as reg:
         for inst in scenario["instruments"]:
             reg.add_instrument(inst["serial"], inst["make"], inst["model"],
                                str(inst["calibration_due"]))
-        job = reg.create_job(loaded, scenario["job"], by="demo")
+        job = reg.create_job(loaded, details, by="demo")
         state = JobState(reg, job)
         report = apply_answers(state, demo_dir() / scenario["answers"])
         for item_id, message in report.rejected:
             typer.echo(f"{item_id}: {message}", err=True)
-        typer.echo(f"demo register: {register}")
-        typer.echo(f"job {job.short_id}: {report.added} answers recorded from the demo "
-                   "answers file")
-    show(job.short_id, register=register, as_json=False)
+        made = make(state, load_form(resolve("forms", "handover")), sign=True,
+                    passphrase=DEMO_PASSPHRASE)
+        state.files.close()
+    pdf = folder / f"record-{job.short_id}.pdf"
+    pdf.write_bytes(made.pdf)
+    result = verify(made.pdf)
+    typer.echo(f"demo job {job.short_id} ({details['site']}): {report.added} answers "
+               f"recorded, status {made.status}")
+    typer.echo(f"register:       {register}")
+    typer.echo(f"signed record:  {pdf}")
+    typer.echo(f"record SHA-256: {made.record_sha256}")
+    typer.echo(f"verified here:  {'yes' if result.ok() else 'NO: ' + str(result.first_problem())}")
     typer.echo("")
-    typer.echo("Try next:")
-    typer.echo(f"  commission show {job.short_id} --register {register} --json")
-    typer.echo(f"  commission walk {job.short_id} --register {register}")
-    if report.rejected:
-        raise typer.Exit(2)
+    typer.echo("A reviewer checks the record with:")
+    typer.echo(f"  commission verify {pdf} --trust {ident.cert_file}")
+    typer.echo("and sees the job with:")
+    typer.echo(f"  COMMISSION_HOME={folder} commission show {job.short_id} --register {register}")
+    if report.rejected or not result.ok():
+        raise typer.Exit(2 if report.rejected else 1)

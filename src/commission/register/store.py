@@ -68,6 +68,7 @@ class Job:
     checklist_sha256: str
     checklist_text: str
     checklist_source: str
+    original: dict[str, str] = field(default_factory=dict)  # details before any amendment
 
     def as_json(self) -> dict[str, Any]:
         return {
@@ -238,11 +239,12 @@ class Register:
         cols = [c[1] for c in self.db.execute("PRAGMA table_info(jobs)")]
         r = dict(zip(cols, row, strict=True))
         details = {k: r[k] for k in DETAIL_FIELDS}
+        original = dict(details)
         for e in self._entries(r["id"], "AND action = 'detail'"):
             details[e.item_id.removeprefix("job.")] = e.value
         return Job(r["id"], r["short_id"], r["uuid"], r["created_at"], r["created_by"], details,
                    r["checklist_id"], r["checklist_version"], r["checklist_sha256"],
-                   r["checklist_text"], r["checklist_source"])
+                   r["checklist_text"], r["checklist_source"], original)
 
     def find_job(self, ref: str) -> Job:
         ref = ref.strip()
@@ -284,6 +286,7 @@ class Register:
         instrument_id: int | None = None,
         by: str | None = None,
         at: str | None = None,
+        uuid: str | None = None,
     ) -> Entry:
         """Append one entry and commit it before returning."""
         with self._transaction():
@@ -294,7 +297,7 @@ class Register:
             cur = self._write(
                 "INSERT INTO entries (uuid, job_id, item_id, action, raw, value_json, unit_typed,"
                 " instrument_id, at, by, supersedes) VALUES (?,?,?,?,?,?,?,?,?,?,?)",
-                (str(uuidlib.uuid4()), job.id, item_id, action, raw,
+                (uuid or str(uuidlib.uuid4()), job.id, item_id, action, raw,
                  json.dumps(value, ensure_ascii=False), unit_typed, instrument_id,
                  at or now_iso(), by or who(), prev[0] if prev else None),
             )

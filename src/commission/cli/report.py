@@ -1,0 +1,158 @@
+"""commission report | verify | import | blank"""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Annotated
+
+import typer
+
+from .common import JsonOpt, RegisterOpt, emit_json, open_register
+
+
+def _write(out: Path, data: bytes) -> None:
+    from ..errors import UserError
+
+    try:
+        out.parent.mkdir(parents=True, exist_ok=True)
+        tmp = out.with_name(out.name + ".part")
+        tmp.write_bytes(data)
+        tmp.replace(out)
+    except OSError as exc:
+        raise UserError(f"{out}: cannot write ({exc.strerror})") from None
+
+
+def report(
+    job: Annotated[str, typer.Argument(help="Job id or UUID.")],
+    out: Annotated[Path, typer.Option(help="The PDF to write.")],
+    sign: Annotated[bool, typer.Option(help="Sign with your identity (PAdES).")] = False,
+    form: Annotated[str, typer.Option(help="Form file or shipped name.")] = "handover",
+    passphrase_file: Annotated[
+        Path | None, typer.Option(help="File holding the key passphrase (for scripts).")
+    ] = None,
+    register: RegisterOpt = None,
+) -> None:
+    """Write the handover record: results, charts, cautions, homeowner page, signatures."""
+    from ..report.build import make
+    from ..report.pdf import load_form
+    from ..resources import resolve
+    from ..walk.state import JobState
+
+    form_data = load_form(resolve("forms", form))
+    passphrase = None
+    if sign:
+        from ..report.identity import load_identity, passphrase_from
+
+        load_identity()  # a clear line if there is no identity yet
+        passphrase = passphrase_from(passphrase_file)
+        if passphrase is None:
+            passphrase = typer.prompt("Key passphrase", hide_input=True)
+    with open_register(register, create=False) as reg:
+        state = JobState(reg, reg.find_job(job))
+        made = make(state, form_data, sign=sign, passphrase=passphrase)
+        state.files.close()
+    _write(out, made.pdf)
+    typer.echo(f"record written: {out} ({len(made.pdf)} bytes, status {made.status}, "
+               f"{'signed' if sign else 'unsigned'})")
+    typer.echo(f"record SHA-256 {made.record_sha256}")
+    if made.not_attached:
+        typer.echo(f"not attached (over 20 MB, hash only): {', '.join(made.not_attached)}")
+
+
+def verify(
+    file: Annotated[Path, typer.Argument(help="The handover PDF.")],
+    as_json: JsonOpt = False,
+    trust: Annotated[
+        list[Path] | None, typer.Option(help="Also trust this certificate, for this call.")
+    ] = None,
+    allow_untrusted: Annotated[
+        bool, typer.Option(help="Pass when all else holds but the signer is not trusted.")
+    ] = False,
+) -> None:
+    """Check a record: signatures, the embedded record and every verdict (exit 0/1/2)."""
+    from ..errors import UserError
+    from ..report.identity import load_certificate_bytes
+    from ..report.verify import verify as run
+
+    try:
+        data = file.read_bytes()
+    except OSError as exc:
+        raise UserError(f"{file}: cannot read ({exc.strerror})") from None
+    certs = []
+    for path in trust or []:
+        try:
+            certs.append(load_certificate_bytes(path.read_bytes(), str(path)))
+        except OSError as exc:
+            raise UserError(f"{path}: cannot read ({exc.strerror})") from None
+    result = run(data, certs)
+    ok = result.ok(allow_untrusted)
+    if as_json:
+        emit_json(result.as_json())
+    else:
+        for s in result.signatures:
+            typer.echo(f"signature: {s['signer']} · {s['fingerprint'][:16]}… · "
+                       f"{'valid' if s['valid'] else 'INVALID'} · "
+                       f"{'trusted' if s['trusted'] else 'not trusted'} · "
+                       f"{'covers the whole file' if s['covers_whole'] else 'partial'} · "
+                       f"claimed time {s['signing_time']}")
+        typer.echo(f"embedded record: {'yes' if result.record_embedded else 'no'}; hash "
+                   f"{'matches' if result.record_hash_match else 'DOES NOT match'} the pages")
+        typer.echo(f"verdicts re-evaluated: {'all match' if result.verdicts_match else 'MISMATCH'}"
+                   f"; not re-evaluable: {', '.join(result.not_reevaluable) or 'none'}")
+        typer.echo(f"job status in the record: {result.job_status}")
+        typer.echo("signing is offline: times are as the signer's computer claimed")
+    if not ok:
+        typer.echo(f"verification failed: {result.first_problem(allow_untrusted)}", err=True)
+        raise typer.Exit(1)
+    if not as_json:
+        typer.echo("verified")
+
+
+def import_(
+    file: Annotated[Path, typer.Argument(help="A handover PDF made by commission.")],
+    register: RegisterOpt = None,
+) -> None:
+    """Restore the job inside a handover PDF into the register (same ids)."""
+    import json
+
+    from ..errors import UserError
+    from ..report import record as rec
+    from ..report.restore import restore
+    from ..report.signatures import open_pdf
+    from ..report.verify import attachments, declared_hash
+
+    try:
+        data = file.read_bytes()
+    except OSError as exc:
+        raise UserError(f"{file}: cannot read ({exc.strerror})") from None
+    reader, _ = open_pdf(data)
+    files = attachments(reader)
+    payload = files.get(rec.RECORD_NAME)
+    if payload is None:
+        raise UserError(f"{file}: no embedded record; only records made by commission import")
+    if declared_hash(reader) != rec.record_hash(payload):
+        raise UserError(f"{file}: the embedded record does not match its printed hash; "
+                        "not imported")
+    try:
+        record = json.loads(payload.decode("utf-8"))
+    except (UnicodeDecodeError, ValueError):
+        raise UserError(f"{file}: the embedded record is not readable JSON") from None
+    with open_register(register) as reg:
+        short, restored = restore(reg, record, files)
+    typer.echo(f"imported job {short} with {len(record['entries'])} entries and {restored} "
+               "files")
+    typer.echo(short)
+
+
+def blank(
+    checklist: Annotated[str, typer.Argument(help="Checklist file or shipped name.")],
+    out: Annotated[Path, typer.Option(help="The PDF to write.")],
+) -> None:
+    """Print a checklist as a paper form to fill by hand."""
+    from ..checklist import load
+    from ..report.blank import render
+    from ..resources import resolve
+
+    loaded = load(resolve("checklists", checklist))
+    _write(out, render(loaded))
+    typer.echo(f"paper form written: {out}")
