@@ -156,3 +156,16 @@ def test_harmonics_predicted_at_half_power_match_closed_form(demo_job):
     h3_rms = math.hypot(a3, b3) / math.sqrt(2)
     assert item["measured"]["value"] == pytest.approx(h3_rms, rel=2e-3)
     assert item["expected"]["max"] == 2.30  # IEC 61000-3-2 Class A, h3
+
+
+def test_heating_log_of_a_weak_element_fails(demo_job):
+    """A log rising at 60 % of P/(m·cp) (IAPWS-95 water, 2947 W into 150 L) fails."""
+    lines = ["time_s,temp_c"]
+    for n in range(0, 46):
+        lines.append(f"{n * 60},{30.0 + 0.6 * 16.9 * n / 60:.2f}")
+    (demo_job.files / "weak.csv").write_text("\n".join(lines) + "\n")
+    data = demo_job({"files/heating-run.csv": "files/weak.csv"})
+    item = _item(data, "water.heat.log")
+    assert item["verdict"] == "fail", item["reason"]
+    assert item["measured"]["value"] == pytest.approx(0.6 * 16.9, rel=0.02)
+    assert "failed element section" in item["reason"]

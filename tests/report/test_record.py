@@ -269,3 +269,58 @@ def test_blank_form(cli, tmp_path):
     need_tool("pdftotext")
     text = _run("pdftotext", out, "-").stdout
     assert "protection.rcd.t1" in text and "Mains electricity can kill" in text
+
+
+def test_every_answered_value_is_printed(demo, monkeypatch):
+    """pdftotext finds each answered reading, choice and confirm as the show table prints it."""
+    need_tool("pdftotext")
+    monkeypatch.setenv("COMMISSION_HOME", str(demo["folder"]))
+    from commission.present import value_text
+    from commission.register import Register
+    from commission.walk.state import JobState
+
+    text = " ".join(_run("pdftotext", demo["pdf"], "-").stdout.split())
+    with Register(demo["register"]) as reg:
+        state = JobState(reg, reg.find_job(demo["job"]))
+        results = state.results()
+        state.files.close()
+    checked = 0
+    for r in results:
+        if r.entry is None or r.item.kind in ("file", "photo", "text"):
+            continue
+        shown = value_text(r)
+        assert shown in text, (r.item.id, shown)
+        checked += 1
+    assert checked > 40
+
+
+def test_large_file_travels_by_hash_only(cli, new_job, tmp_path, monkeypatch):
+    """A capture over 20 MB is recorded by hash, not attached, and listed as not
+    re-evaluable by verify."""
+    import hashlib
+    import os
+
+    big = tmp_path / "big.csv"
+    with big.open("wb") as out:
+        out.write(b"time_s,voltage_v,current_a\n")
+        out.write(os.urandom(21 * 1024 * 1024))
+    job = new_job()
+    answers = tmp_path / "a.yaml"
+    answers.write_text(f"clamp.capture: {{file: {big}}}\n", encoding="utf-8")
+    assert cli("walk", job, "--answers", answers).exit_code == 0
+    monkeypatch.setenv("COMMISSION_HOME", str(tmp_path / "home"))
+    monkeypatch.setenv("COMMISSION_PASSPHRASE", "big-file-pass")
+    assert cli("identity", "new", "--name", "A. Tester", "--registration", "T-1").exit_code == 0
+    out = tmp_path / "big.pdf"
+    result = cli("report", job, "--out", out, "--sign")
+    assert result.exit_code == 0, result.stderr
+    assert "not attached (over 20 MB, hash only): big.csv" in result.stdout
+    assert out.stat().st_size < 5 * 1024 * 1024
+    report = json.loads(cli("verify", out, "--json").stdout)
+    assert report["not_reevaluable"] == ["clamp.capture"]
+    assert report["verdicts_match"] is True
+    need_tool("pdfdetach")
+    digest = hashlib.sha256(big.read_bytes()).hexdigest()
+    listing = _run("pdfdetach", "-list", out).stdout
+    assert "commission-record.json" in listing
+    assert digest not in listing

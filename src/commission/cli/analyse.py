@@ -45,12 +45,9 @@ CAPTURE_COLUMNS = "voltage_v=U1,current_a=I1,time_s=t"
 TEMP_COLUMNS = "temp_c=T1,time_s=t"
 GRID_COLUMNS = "grid_w=P_grid,time_s=t"
 
-# Heating verdict: our defaults unless a source is named.
+# Heating verdict defaults live with the check (checks/heating.py), shared by both.
 HEATING_BAND = (0.85, 1.10)  # common practice (same band as the checklist's heating check)
 HEATING_FILL_TEMP_C = 15.0  # common practice: cold mains water (from memory)
-HEATING_MIN_RISE_K = 3.0  # common practice: smaller rises are lost in sensor resolution
-HEATING_MIN_POINTS = 5  # our default: fewer readings cannot show whether the line is straight
-HEATING_Z95 = 1.96  # two-sided 95 % normal quantile, for the interval of the ratio
 
 app = typer.Typer(
     help="Check measured files against the physics: waveform captures, heating, heatsink "
@@ -547,28 +544,15 @@ def heating(
     mapping = _mapping(columns, TEMP_COLUMNS)
 
     from ..captures import read_heating_log
-    from ..physics import water
+    from ..checks.heating import assess_heating_log
 
     with _bad_input(log, TEMP_COLUMNS):
         data_log = read_heating_log(log, columns=mapping)
-        mass = float(water.mass_kg(volume, fill))
-        fit = water.fit_heating_rate(data_log.time_s, data_log.temp_c)
-        expected = float(water.heating_rate_k_per_h(power, mass, fit.mean_temp_c))
-        whole_log = False
-        if fit.plateau_from_s is not None and _too_short(fit, expected):
-            # The log levels off almost at once (a dead element, or a thermostat that opened
-            # early): judge the whole log instead of the few readings before the plateau.
-            fit = water.fit_heating_rate(data_log.time_s, data_log.temp_c,
-                                         detect_plateau=False)
-            expected = float(water.heating_rate_k_per_h(power, mass, fit.mean_temp_c))
-            whole_log = True
-        delivered = float(water.delivered_power_w(fit.rate_k_per_h, mass, fit.mean_temp_c))
-        cp = float(water.heat_capacity_j_per_kg_k(fit.mean_temp_c))
-    ratio = fit.rate_k_per_h / expected
-    verdict, reason = _heating_verdict(fit, expected, ratio, lo, hi)
-    if whole_log:
-        reason += ("; the log shows no steady rise before it levels off, so the whole log "
-                   "was fitted")
+        judged = assess_heating_log(data_log.time_s, data_log.temp_c, power_w=power,
+                                    volume_l=volume, fill_temp_c=fill, band=(lo, hi))
+    fit, expected, ratio = judged.fit, judged.expected_k_per_h, judged.ratio
+    verdict, reason = judged.verdict, judged.reason
+    mass, delivered, cp = judged.mass_kg, judged.delivered_w, judged.cp_j_per_kg_k
     span_s = fit.fit_end_s - fit.fit_start_s
     data = {
         "rate_k_per_h": fit.rate_k_per_h,
@@ -617,47 +601,6 @@ def heating(
     lines += _row("ratio", _fmt(ratio, ".3f", ""), f"band {lo:g}-{hi:g}, common practice")
     lines += _verdict_lines(verdict, reason)
     _print(lines)
-
-
-def _too_short(fit, expected) -> bool:
-    """Too short to judge: the expected rise over the fitted span is under 3 K, or too few
-    readings were fitted."""
-    span_h = (fit.fit_end_s - fit.fit_start_s) / 3600.0
-    return expected * span_h < HEATING_MIN_RISE_K or fit.points < HEATING_MIN_POINTS
-
-
-def _heating_verdict(fit, expected, ratio, lo, hi):
-    """pass inside the band; fail below; review above, or when too short or noisy to say.
-
-    The ratio carries a 95 % interval from the slope's standard error; the verdict is only
-    pass or fail when the whole interval lies on one side of the band edge (our default).
-    """
-    span_h = (fit.fit_end_s - fit.fit_start_s) / 3600.0
-    shown = (f"{fit.rate_k_per_h:.2f} K/h measured against {expected:.2f} K/h expected "
-             f"(ratio {ratio:.2f}, band {lo:g}-{hi:g})")
-    expected_rise = expected * span_h
-    if expected_rise < HEATING_MIN_RISE_K:
-        return "review", (f"{shown}; the fitted span of {span_h * 60:.0f} min should give "
-                          f"only {expected_rise:.1f} K, too little to judge (at least "
-                          f"{HEATING_MIN_RISE_K:g} K, common practice): log for longer")
-    if fit.points < HEATING_MIN_POINTS:
-        return "review", (f"{shown}; only {fit.points} readings in the fitted span (at least "
-                          f"{HEATING_MIN_POINTS}, our default): log more often")
-    half = HEATING_Z95 * fit.rate_stderr_k_per_h / expected
-    if ratio + half < lo:
-        return "fail", (f"{shown}: the water heats too slowly. Usual causes: thermostat "
-                        "cycling (check the log for a plateau or a saw-tooth), a failed "
-                        "element section, a wrong volume, a sensor outside the heated zone "
-                        "(ask where it sits and which volume the element serves)")
-    if ratio - half > hi:
-        return "review", (f"{shown}: faster than the element can heat the whole volume; the "
-                          "sensor probably sits in the hot layer above the element, or the "
-                          "element serves a smaller volume than stated: judge by hand")
-    if ratio - half >= lo and ratio + half <= hi:
-        return "pass", shown
-    return "review", (f"{shown}; the log is too noisy to say (95 % interval of the ratio "
-                      f"{ratio - half:.2f}-{ratio + half:.2f} crosses a band edge): check "
-                      "the sensor's contact and log for longer")
 
 
 # -- soak ----------------------------------------------------------------------------------

@@ -64,6 +64,9 @@ def chart_flowables(c) -> list[Any]:
 
     add_harmonics(c, add)
 
+    if add_heating_log(c, add):
+        add_soak(c, add)
+        return out
     start, end = _reading(c, "water.heat.start"), _reading(c, "water.heat.end")
     seconds = _reading(c, "water.heat.minutes")
     heat = c.result("water.heat.end")
@@ -107,6 +110,39 @@ def add_harmonics(c, add) -> None:
                          f"{math.degrees(alpha):.0f}°), {r:g} Ω at {u:g} V"),
         "Odd harmonics from the phase-control model (Rashid, from memory) against IEC 61000-3-2 "
         "Class A Table 1 (from memory). A type-test limit, indicative on site.")
+
+
+def add_heating_log(c, add) -> bool:
+    """The heating log with its fitted line and the rate the element's power predicts."""
+    found = _file(c, "water.heat.log")
+    judged_item = c.result("water.heat.log")
+    if not found or found[0] is None or judged_item is None or judged_item.expected is None:
+        return False
+    from ..captures import CaptureError, read_heating_log
+    from ..physics import water
+
+    try:
+        log = read_heating_log(found[0])
+        fit = water.fit_heating_rate(log.time_s, log.temp_c)
+    except (CaptureError, ValueError):
+        return False
+    band_low = float((judged_item.item.check.params if judged_item.item.check else {})
+                     .get("band_low", 0.85))
+    expected_rate = judged_item.expected.min / band_low
+    t_min = [float(x) / 60.0 for x in log.time_s]
+    logged = list(zip(t_min, [float(x) for x in log.temp_c], strict=True))
+    if len(logged) > 400:
+        logged = logged[:: len(logged) // 400 + 1]
+    t0, t1 = fit.fit_start_s / 60.0, fit.fit_end_s / 60.0
+    fitted = [(t0, fit.start_temp_c), (t1, fit.end_temp_c)]
+    predicted = [(t0, fit.start_temp_c), (t1, fit.start_temp_c + expected_rate * (t1 - t0) / 60)]
+    add(charts.temperature_curve(
+        [("logged", logged, charts.BLUE, True), ("fitted", fitted, charts.INK, False),
+         ("expected", predicted, charts.GREY, False)],
+        [], "time [min]", "Heating run at full output (temperature log)"),
+        f"Fitted {fit.rate_k_per_h:.1f} K/h over the steady part against {expected_rate:.1f} "
+        "K/h expected from the element's power (P/(m·cp), IAPWS-95 water properties).")
+    return True
 
 
 def add_soak(c, add) -> None:

@@ -115,11 +115,11 @@ def temperature_curve(series: list[tuple[str, Sequence[tuple[float, float]], obj
         d.add(Line(lp.x, yy, lp.x + lp.width, yy, strokeColor=colour, strokeWidth=0.8,
                    strokeDashArray=[3, 2]))
         _label(d, lp.x + lp.width + 4, yy - 2, label, size=6.5, colour=colour)
-    legend_x = WIDTH - 150
+    legend_x = WIDTH - 62 * len(series)
     for label, _, colour, dots in series:
         _label(d, legend_x, HEIGHT + 6, ("• " if dots else "— ") + label, size=6.5,
                colour=colour)
-        legend_x += 75
+        legend_x += 62
     _label(d, 2, HEIGHT + 18, title)
     _label(d, 2, HEIGHT + 6, "temperature [°C]", size=6.5)
     _label(d, lp.x + lp.width / 2, 10, x_label, anchor="middle")
