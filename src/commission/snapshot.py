@@ -25,6 +25,7 @@ def _entry_json(e: Entry, instruments: dict[int, Instrument],
         "instrument": inst.serial if inst else None,
         "time": e.at,
         "by": e.by,
+        "host": e.host,
         "supersedes": uuids.get(e.supersedes) if e.supersedes else None,
     }
 

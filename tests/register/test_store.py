@@ -125,3 +125,36 @@ def test_backup_command(cli, new_job, tmp_path):
     assert cli("backup", dest).exit_code == 0
     again = cli("backup", dest)
     assert again.exit_code == 2 and "already exists" in again.stderr
+
+
+def test_register_from_schema_1_migrates_on_first_use(tmp_path, cli):
+    """tests/data/register-v1.sqlite3 was written by the first release (schema 1)."""
+    import shutil
+
+    from conftest import ROOT
+
+    old = tmp_path / "old.sqlite3"
+    shutil.copy(ROOT / "tests" / "data" / "register-v1.sqlite3", old)
+    db = sqlite3.connect(old)
+    assert db.execute("PRAGMA user_version").fetchone()[0] == 1
+    before = db.execute("SELECT uuid, raw, at FROM entries ORDER BY id").fetchall()
+    db.close()
+    result = cli("show", "QX8KW", "--json", "--register", old)
+    assert result.exit_code == 0, result.stderr
+    data = json.loads(result.stdout)
+    assert data["job"]["site"] == "Fixture House (schema 1)"
+    volt = next(i for i in data["items"] if i["id"] == "supply.voltage")
+    assert [h["raw"] for h in volt["history"]] == ["236 V", "237 V"]
+    assert all(h["host"] == "" for h in volt["history"])  # recorded before hosts were kept
+    db = sqlite3.connect(old)
+    assert db.execute("PRAGMA user_version").fetchone()[0] == SCHEMA_VERSION
+    assert db.execute("SELECT uuid, raw, at FROM entries ORDER BY id").fetchall() == before
+    assert db.execute("PRAGMA integrity_check").fetchone()[0] == "ok"
+    db.close()
+    # New entries now carry the host they were typed on.
+    answers = tmp_path / "a.yaml"
+    answers.write_text("supply.frequency: 50 Hz\n", encoding="utf-8")
+    assert cli("walk", "QX8KW", "--answers", answers, "--register", old).exit_code == 0
+    data = json.loads(cli("show", "QX8KW", "--json", "--register", old).stdout)
+    freq = next(i for i in data["items"] if i["id"] == "supply.frequency")
+    assert freq["history"][-1]["host"] != ""

@@ -6,7 +6,7 @@ release is migrated on first use; a newer one is refused rather than damaged.
 
 from __future__ import annotations
 
-SCHEMA_VERSION = 1
+SCHEMA_VERSION = 2
 
 # Step n brings a register from version n-1 to n. Never edit a released step:
 # add the next one.
@@ -70,5 +70,10 @@ MIGRATIONS: dict[int, str] = {
         data BLOB NOT NULL,
         PRIMARY KEY (blob, seq)
     );
+    """,
+    # 2: each entry records the computer it was typed on, so a record shows where every
+    # reading was entered (a second laptop on site, an import). Older entries: ''.
+    2: """
+    ALTER TABLE entries ADD COLUMN host TEXT NOT NULL DEFAULT '';
     """,
 }

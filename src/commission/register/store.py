@@ -45,6 +45,15 @@ def now_iso() -> str:
     return datetime.now(UTC).isoformat(timespec="milliseconds").replace("+00:00", "Z")
 
 
+def this_host() -> str:
+    import socket
+
+    try:
+        return socket.gethostname()[:100]
+    except OSError:
+        return ""
+
+
 def who() -> str:
     name = os.environ.get("COMMISSION_USER")
     if name:
@@ -99,6 +108,7 @@ class Entry:
     at: str
     by: str
     supersedes: int | None
+    host: str = ""
 
 
 @dataclass(frozen=True)
@@ -287,6 +297,7 @@ class Register:
         by: str | None = None,
         at: str | None = None,
         uuid: str | None = None,
+        host: str | None = None,
     ) -> Entry:
         """Append one entry and commit it before returning."""
         with self._transaction():
@@ -296,23 +307,24 @@ class Register:
             ).fetchone()
             cur = self._write(
                 "INSERT INTO entries (uuid, job_id, item_id, action, raw, value_json, unit_typed,"
-                " instrument_id, at, by, supersedes) VALUES (?,?,?,?,?,?,?,?,?,?,?)",
+                " instrument_id, at, by, supersedes, host) VALUES (?,?,?,?,?,?,?,?,?,?,?,?)",
                 (uuid or str(uuidlib.uuid4()), job.id, item_id, action, raw,
                  json.dumps(value, ensure_ascii=False), unit_typed, instrument_id,
-                 at or now_iso(), by or who(), prev[0] if prev else None),
+                 at or now_iso(), by or who(), prev[0] if prev else None,
+                 this_host() if host is None else host),
             )
         return self._entry_by_id(cur.lastrowid)
 
     def _entry_by_id(self, entry_id: int) -> Entry:
         row = self.db.execute(
             "SELECT id, uuid, item_id, action, raw, value_json, unit_typed, instrument_id, at, by,"
-            " supersedes FROM entries WHERE id = ?", (entry_id,)).fetchone()
+            " supersedes, host FROM entries WHERE id = ?", (entry_id,)).fetchone()
         return _entry(row)
 
     def _entries(self, job_id: int, where: str = "") -> list[Entry]:
         rows = self.db.execute(
             "SELECT id, uuid, item_id, action, raw, value_json, unit_typed, instrument_id, at, by,"
-            f" supersedes FROM entries WHERE job_id = ? {where} ORDER BY id", (job_id,))
+            f" supersedes, host FROM entries WHERE job_id = ? {where} ORDER BY id", (job_id,))
         return [_entry(r) for r in rows]
 
     def entries(self, job: Job) -> list[Entry]:
@@ -436,7 +448,7 @@ class _Tx:
 def _entry(row: tuple) -> Entry:
     return Entry(row[0], row[1], row[2], row[3], row[4],
                  json.loads(row[5]) if row[5] is not None else None,
-                 row[6], row[7], row[8], row[9], row[10])
+                 row[6], row[7], row[8], row[9], row[10], row[11])
 
 
 def _statements(script: str) -> list[str]:

@@ -37,7 +37,7 @@ def _entry(e: Entry, instruments: dict[int, Instrument]) -> dict[str, Any]:
     return {"uuid": e.uuid, "seq": e.id, "item": e.item_id, "action": e.action, "raw": e.raw,
             "value": e.value, "unit_typed": e.unit_typed,
             "instrument": inst.serial if inst else None, "at": e.at, "by": e.by,
-            "supersedes": e.supersedes}
+            "supersedes": e.supersedes, "host": e.host}
 
 
 def verdict_snapshot(results: list[Result]) -> list[dict[str, Any]]:
@@ -105,7 +105,7 @@ def entries_from_record(data: dict[str, Any]) -> tuple[list[Entry], dict[int, In
     entries = [
         Entry(int(e["seq"]), e["uuid"], e["item"], e["action"], e["raw"], e["value"],
               e.get("unit_typed"), by_serial.get(e.get("instrument") or ""), e["at"], e["by"],
-              e.get("supersedes"))
+              e.get("supersedes"), e.get("host", ""))
         for e in data["entries"]
     ]
     return entries, instruments

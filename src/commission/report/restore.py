@@ -53,7 +53,7 @@ def restore(reg: Register, data: dict[str, Any], files: dict[str, bytes]) -> tup
     for e in data["entries"]:
         reg.add_entry(job, e["item"], e["action"], e["raw"], e["value"], e.get("unit_typed"),
                       serials.get(e.get("instrument") or ""), by=e["by"], at=e["at"],
-                      uuid=e["uuid"])
+                      uuid=e["uuid"], host=e.get("host", ""))
     return job.short_id, restored
 
 
