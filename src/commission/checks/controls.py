@@ -15,6 +15,7 @@ from .registry import (
     Outcome,
     Param,
     check,
+    csv_list,
 )
 
 SRC_OPEN = (
@@ -80,10 +81,6 @@ SRC_REGIME = (
 )
 
 
-def _csv(text: str) -> list[str]:
-    return [p.strip() for p in str(text).split(",") if p.strip()]
-
-
 @check(
     "stored_water_regime",
     summary="how the store reaches 60 °C",
@@ -101,12 +98,12 @@ def stored_water_regime(ctx: Context) -> Outcome:
     regime = str(ctx.value)
     target = ctx.param("target_c")
     expected = Expected("°C", min=target)
-    if regime in _csv(ctx.param("solar_options")):
+    if regime in csv_list(ctx.param("solar_options")):
         return Outcome(REVIEW, f"relies on solar heating alone: the store may stay below "
                        f"{f(target)} °C for days; agree a boost or a periodic cycle with the "
                        "homeowner as local rules require", SRC_REGIME, Measured(regime, None),
                        expected)
-    if regime not in _csv(ctx.param("heated_options")):
+    if regime not in csv_list(ctx.param("heated_options")):
         return Outcome(FAIL, f"'{regime}': nothing brings the store to {f(target)} °C; set a "
                        "timed boost or a periodic high-temperature cycle", SRC_REGIME,
                        Measured(regime, None), expected)

@@ -27,6 +27,20 @@ def expected_power_w(ctx: Context) -> tuple[float, str]:
     return p, f"{f(p)} W nameplate"
 
 
+# Inputs and limits shared by the two heating checks (readings, and a logged run).
+POWER_INPUTS = {
+    "volume": Input("stored volume (volume reading)"),
+    "rated_power": Input("element nameplate power"),
+    "cold_resistance": Input("element cold resistance", required=False),
+    "supply_voltage": Input("measured supply voltage", required=False),
+}
+BAND_PARAMS = {
+    "fill_temp_c": Param(15.0, "°C", "common practice: cold mains water (from memory)"),
+    "band_low": Param(0.85, None, "common practice"),
+    "band_high": Param(1.10, None, "common practice"),
+}
+
+
 @check(
     "heating_rate",
     summary="heating rate against the element's power",
@@ -35,15 +49,10 @@ def expected_power_w(ctx: Context) -> tuple[float, str]:
     inputs={
         "start_temp": Input("temperature at the start"),
         "minutes": Input("time between the two readings"),
-        "volume": Input("stored volume (volume reading)"),
-        "rated_power": Input("element nameplate power"),
-        "cold_resistance": Input("element cold resistance", required=False),
-        "supply_voltage": Input("measured supply voltage", required=False),
+        **POWER_INPUTS,
     },
     params={
-        "fill_temp_c": Param(15.0, "°C", "common practice: cold mains water (from memory)"),
-        "band_low": Param(0.85, None, "common practice"),
-        "band_high": Param(1.10, None, "common practice"),
+        **BAND_PARAMS,
         "min_rise_k": Param(3.0, "K", "common practice: smaller rises are lost in sensor "
                             "resolution"),
     },
@@ -172,17 +181,8 @@ def _log_verdict(fit, expected, ratio, lo, hi) -> tuple[str, str]:
     summary="heating rate fitted from a temperature log against the element's power",
     source=SRC_HEATING + "; steady part fitted by least squares",
     kinds=("file",),
-    inputs={
-        "volume": Input("stored volume (volume reading)"),
-        "rated_power": Input("element nameplate power"),
-        "cold_resistance": Input("element cold resistance", required=False),
-        "supply_voltage": Input("measured supply voltage", required=False),
-    },
-    params={
-        "fill_temp_c": Param(15.0, "°C", "common practice: cold mains water (from memory)"),
-        "band_low": Param(0.85, None, "common practice"),
-        "band_high": Param(1.10, None, "common practice"),
-    },
+    inputs=dict(POWER_INPUTS),
+    params=dict(BAND_PARAMS),
 )
 def heating_log(ctx: Context) -> Outcome:
     from ..captures import CaptureError, read_heating_log

@@ -15,16 +15,13 @@ from .registry import (
     Outcome,
     Param,
     check,
+    csv_list,
 )
 
 SRC_RCD_TYPE = (
     "IEC 60364-5-53, 531.3.3 type selection (from memory); type A or better for "
     "electronic phase-controlled loads is common practice"
 )
-
-
-def _csv(text: str) -> list[str]:
-    return [part.strip() for part in str(text).split(",") if part.strip()]
 
 
 @check(
@@ -35,7 +32,7 @@ def _csv(text: str) -> list[str]:
     params={"accepted": Param("A,F,B", None, SRC_RCD_TYPE, "comma-separated types")},
 )
 def rcd_type(ctx: Context) -> Outcome:
-    accepted = _csv(ctx.param("accepted"))
+    accepted = csv_list(ctx.param("accepted"))
     value = str(ctx.value)
     expected = Expected(None, value=" or ".join(accepted))
     if value in accepted:

@@ -23,6 +23,7 @@ from .registry import (
     Outcome,
     Param,
     check,
+    csv_list,
 )
 
 SIGN = "positive power = import"
@@ -209,7 +210,7 @@ def harmonic_emission(ctx: Context) -> Outcome:
     from ..physics.harmonic_limits import class_a_limit_a
 
     mode = str(ctx.value)
-    if mode in [m.strip() for m in str(ctx.param("burst_options")).split(",")]:
+    if mode in csv_list(ctx.param("burst_options")):
         return Outcome(PASS, "whole-cycle (burst-fire) control: no integer harmonics; its "
                        "on/off steps matter for flicker (IEC 61000-3-3, indicative)",
                        SRC_HARMONICS)

@@ -17,6 +17,11 @@ PASS, FAIL, REVIEW, NA, PENDING = "pass", "fail", "review", "n/a", "pending"
 _SEVERITY = {PASS: 0, REVIEW: 1, FAIL: 2}
 
 
+def csv_list(text: object) -> list[str]:
+    """A comma-separated text parameter as a list: "A,F,B" → ["A", "F", "B"]."""
+    return [part.strip() for part in str(text).split(",") if part.strip()]
+
+
 def worst(*verdicts: str) -> str:
     """Worst of pass/review/fail (fail, then review, then pass)."""
     return max(verdicts, key=lambda v: _SEVERITY.get(v, -1))
