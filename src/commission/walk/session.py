@@ -112,6 +112,8 @@ class Walk:
         self.term.say(_wrap(item.prompt))
         if item.help:
             self.term.say(_wrap(item.help, "  "))
+        if item.kind == "reading" and self.instrument is not None:
+            self.term.say(f"  instrument: {self.instrument.serial} (:use SERIAL to change)")
         hint = self._hint(item)
         if r.entry is not None:
             self.term.say(f"  now: {self._now_text(r)} (Enter keeps it)")
