@@ -338,8 +338,8 @@ def _homeowner(c: _Context) -> list:
         "If the water is not hot: on a dull day the sun may not heat it; the boost (timer) "
         f"setting is: {v('install.diverter.settings')}. If it is still cold after a boost, "
         "check the isolator and call the installer.",
-        "Press the RCD's test button every few months (common practice; follow the device "
-        "maker's instructions): it should switch off at once. Switch it back on afterwards.",
+        "Test the RCD: press its test button every few months (common practice; follow the "
+        "device maker's instructions). It should switch off at once; switch it back on.",
         "How the store reaches 60 °C: "
         f"{v('water.regime')}. Water stored at 60 °C or more keeps bacteria such as "
         "Legionella from growing.",
@@ -347,8 +347,12 @@ def _homeowner(c: _Context) -> list:
         "and older people. Check taps before bathing.",
         f"Whom to call: {who}, {contact}.",
     ]
+    from reportlab.platypus import Paragraph
+
     out = [PageBreak(), _p(c.heading("homeowner", "For the homeowner"), c.st["h1"])]
-    out += [_p(line, c.st["plain"]) for line in lines]
+    for line in lines:
+        lead, _, rest = line.partition(": ")
+        out.append(Paragraph(f"<b>{escape(lead)}:</b> {escape(rest)}", c.st["plain"]))
     return out
 
 
@@ -366,8 +370,10 @@ def _signatures(c: _Context) -> list:
                      _p("", c.st["cell"]), _p("\n\n", c.st["cell"])])
     note = ("Digital signatures, where applied, are listed by any PDF reader's signature "
             "panel and checked by 'commission verify'.")
+    table = _table(rows, [110, 120, 80, 60, 110], zebra=False)
+    table._argH = [None] + [34] * (len(rows) - 1)  # room to sign by hand
     return [KeepTogether([_p(c.heading("signatures", "Signatures"), c.st["h1"]),
-                          _table(rows, [110, 120, 80, 60, 110], zebra=False), Spacer(1, 4),
+                          table, Spacer(1, 4),
                           _p(note, c.st["small"])])]
 
 
