@@ -133,6 +133,7 @@ class Instrument:
 class Register:
     path: Path
     create: bool = True
+    read_only: bool = field(default=False, init=False)  # this user cannot write the file
     _db: sqlite3.Connection | None = field(default=None, init=False, repr=False)
 
     # -- opening and closing -------------------------------------------------
@@ -155,6 +156,11 @@ class Register:
                 raise RegisterError(f"{self.path.parent}: cannot create ({exc.strerror})") from None
         elif self.path.is_dir():
             raise RegisterError(f"{self.path}: is a folder; --register needs a file path")
+        elif not _writable(self.path):
+            self._db = self._open_read_only()
+            self.read_only = True
+            self._migrate()
+            return
         try:
             db = sqlite3.connect(self.path, isolation_level=None, timeout=10)
             db.execute("PRAGMA busy_timeout = 10000")
@@ -165,6 +171,30 @@ class Register:
             raise RegisterError(f"{self.path}: not a usable register ({exc})") from None
         self._db = db
         self._migrate()
+
+    def _open_read_only(self) -> sqlite3.Connection:
+        """Read a register this user cannot write, writing nothing. WAL reading needs the
+        -shm file; when it is missing and cannot be made (a read-only folder) and no -wal
+        holds entries not yet in the file, the file alone is the whole register."""
+        uri = self.path.resolve().as_uri()
+        wal = self.path.with_name(self.path.name + "-wal")
+        tries = [uri + "?mode=ro"]
+        if not wal.exists() or wal.stat().st_size == 0:
+            tries.append(uri + "?mode=ro&immutable=1")
+        problem: sqlite3.Error | None = None
+        for target in tries:
+            db = None
+            try:
+                db = sqlite3.connect(target, uri=True, isolation_level=None, timeout=10)
+                db.execute("PRAGMA busy_timeout = 10000")
+                db.execute("SELECT count(*) FROM sqlite_master").fetchone()
+                return db
+            except sqlite3.Error as exc:
+                problem = exc
+                if db is not None:
+                    db.close()
+        raise RegisterError(f"{self.path}: the register is read-only for this user and cannot "
+                            f"be read ({problem}); open it as its owner") from None
 
     def close(self) -> None:
         if self._db is None:
@@ -193,6 +223,11 @@ class Register:
                 f"{self.path}: made by a newer release (schema {version}; this one reads "
                 f"up to {SCHEMA_VERSION}); upgrade commission"
             )
+        if version < SCHEMA_VERSION and self.read_only:
+            raise RegisterError(
+                f"{self.path}: made by an older release (schema {version}) and read-only for "
+                "this user; open it once with write access so it can be upgraded"
+            )
         for step in range(version + 1, SCHEMA_VERSION + 1):
             try:
                 db.execute("BEGIN IMMEDIATE")
@@ -209,7 +244,7 @@ class Register:
         try:
             return self.db.execute(sql, args)
         except sqlite3.OperationalError as exc:
-            raise RegisterError(f"{self.path}: cannot write ({exc}); nothing was changed") from None
+            raise _cannot_write(self.path, exc) from None
 
     # -- jobs ----------------------------------------------------------------
     def create_job(self, checklist, details: dict[str, str], by: str | None = None) -> Job:
@@ -427,10 +462,13 @@ class _Tx:
         self.reg = reg
 
     def __enter__(self) -> None:
+        if self.reg.read_only:
+            raise RegisterError(f"{self.reg.path}: cannot write: the register is read-only for "
+                                "this user; nothing was changed")
         try:
             self.reg.db.execute("BEGIN IMMEDIATE")
         except sqlite3.OperationalError as exc:
-            raise RegisterError(f"{self.reg.path}: cannot write ({exc})") from None
+            raise _cannot_write(self.reg.path, exc) from None
 
     def __exit__(self, exc_type, exc, tb) -> None:
         db = self.reg.db
@@ -438,11 +476,35 @@ class _Tx:
             try:
                 db.execute("COMMIT")
             except sqlite3.OperationalError as err:
-                db.execute("ROLLBACK")
-                raise RegisterError(f"{self.reg.path}: cannot write ({err}); "
-                                    "nothing was changed") from None
-        elif db.in_transaction:
+                # A failed COMMIT may already have rolled back (e.g. a disk I/O error).
+                _rollback(db)
+                raise _cannot_write(self.reg.path, err) from None
+        else:
+            _rollback(db)
+
+
+def _rollback(db: sqlite3.Connection) -> None:
+    if db.in_transaction:
+        with contextlib.suppress(sqlite3.Error):
             db.execute("ROLLBACK")
+
+
+def _writable(path: Path) -> bool:
+    """Can this user write the register? WAL also makes files beside it."""
+    return os.access(path, os.W_OK) and os.access(path.parent, os.W_OK | os.X_OK)
+
+
+def _cannot_write(path: Path, exc: sqlite3.Error) -> RegisterError:
+    name = getattr(exc, "sqlite_errorname", "") or ""
+    if name.startswith("SQLITE_READONLY"):
+        why = "the register is read-only"
+    elif name == "SQLITE_FULL":
+        why = "the disk is full"
+    elif name.startswith("SQLITE_IOERR"):
+        why = f"the disk refused the write ({exc}; full, or a file size limit?)"
+    else:
+        why = str(exc)
+    return RegisterError(f"{path}: cannot write: {why}; nothing was changed")
 
 
 def _entry(row: tuple) -> Entry:

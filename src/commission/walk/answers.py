@@ -22,6 +22,7 @@ from pathlib import Path
 import yaml
 
 from ..errors import UserError
+from ..register.store import RegisterError
 from .state import JobState
 from .values import BadAnswer, parse_answer
 
@@ -81,6 +82,8 @@ def apply_answers(state: JobState, path: Path, default_instrument: str | None = 
             continue
         try:
             outcome = _apply_one(state, item, spec, base, default_instrument)
+        except RegisterError:
+            raise  # the register cannot take writes: stop at once, one line, nothing half
         except (BadAnswer, UserError) as exc:
             report.rejected.append((item_id, str(exc)))
             continue

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import errno
 import fcntl
 import os
 from pathlib import Path
@@ -20,7 +21,12 @@ class JobLock:
             self.path.parent.mkdir(parents=True, exist_ok=True)
             fd = os.open(self.path, os.O_RDWR | os.O_CREAT, 0o600)
         except OSError as exc:
-            raise UserError(f"{self.path}: cannot create the walk lock ({exc.strerror})") from None
+            hint = ""
+            if exc.errno in (errno.EACCES, errno.EPERM, errno.EROFS):
+                hint = ("; the register's folder is read-only for this user, so nothing can be "
+                        "recorded here")
+            raise UserError(f"{self.path}: cannot create the walk lock ({exc.strerror}){hint}"
+                            ) from None
         try:
             fcntl.flock(fd, fcntl.LOCK_EX | fcntl.LOCK_NB)
         except BlockingIOError:
