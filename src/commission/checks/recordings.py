@@ -223,7 +223,9 @@ def harmonic_emission(ctx: Context) -> Outcome:
         basis = f"measured at part output ({a.p_w:.0f} W)"
     else:
         fraction = float(ctx.param("fraction"))
-        alpha = float(phase_control.firing_angle_for_fraction(fraction))
+        # Solved once per job state, not on every re-evaluation during the walk.
+        alpha = ctx.memo(("firing_angle", fraction),
+                         lambda: float(phase_control.firing_angle_for_fraction(fraction)))
         spectrum = phase_control.current_spectrum(u, r, alpha)
         currents = dict(zip(spectrum.orders, spectrum.harmonic_rms_a, strict=True))
         basis = (f"predicted at {f(fraction * 100)} % power (α {math.degrees(alpha):.0f}°) "

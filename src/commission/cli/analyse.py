@@ -7,8 +7,6 @@ stderr naming the file and what is accepted). numpy, the physics and the readers
 imported inside the commands so that ``commission --help`` stays fast.
 """
 
-from __future__ import annotations
-
 import math
 import sys
 import textwrap

@@ -1,7 +1,5 @@
 """commission checklists validate|show|schema|list"""
 
-from __future__ import annotations
-
 from typing import Annotated
 
 import typer

@@ -1,7 +1,5 @@
 """Options and helpers shared by the commands."""
 
-from __future__ import annotations
-
 import json
 import sys
 from pathlib import Path

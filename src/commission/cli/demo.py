@@ -1,7 +1,5 @@
 """commission demo"""
 
-from __future__ import annotations
-
 from pathlib import Path
 from typing import Annotated
 

@@ -1,7 +1,5 @@
 """commission instruments add|list"""
 
-from __future__ import annotations
-
 from typing import Annotated
 
 import typer

@@ -114,8 +114,11 @@ class _Context:
     generated_at: str
     st: dict[str, Any]
 
+    def __post_init__(self) -> None:
+        self._by_id = {r.item.id: r for r in self.results}
+
     def result(self, item_id: str) -> Result | None:
-        return next((r for r in self.results if r.item.id == item_id), None)
+        return self._by_id.get(item_id)
 
     def value(self, item_id: str, default: str = "—") -> str:
         r = self.result(item_id)
