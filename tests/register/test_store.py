@@ -158,3 +158,12 @@ def test_register_from_schema_1_migrates_on_first_use(tmp_path, cli):
     data = json.loads(cli("show", "QX8KW", "--json", "--register", old).stdout)
     freq = next(i for i in data["items"] if i["id"] == "supply.frequency")
     assert freq["history"][-1]["host"] != ""
+
+
+def test_job_reference_is_not_a_pattern(cli, new_job):
+    job = new_job()
+    for typed in ("________", "%%%%%%%%", "%"):
+        result = cli("show", typed)
+        assert result.exit_code == 2, typed
+        assert "not in" in result.stderr
+    assert cli("show", job).exit_code == 0

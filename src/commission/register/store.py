@@ -295,9 +295,10 @@ class Register:
         ref = ref.strip()
         row = self.db.execute("SELECT * FROM jobs WHERE short_id = ? OR uuid = ?",
                               (ref.upper(), ref.lower())).fetchone()
-        if row is None and len(ref) >= 8:
-            rows = self.db.execute("SELECT * FROM jobs WHERE uuid LIKE ?",
-                                   (ref.lower() + "%",)).fetchall()
+        if row is None and len(ref) >= 8 and all(c in "0123456789abcdef-" for c in ref.lower()):
+            # A UUID prefix, compared literally (no LIKE wildcards from what was typed).
+            rows = self.db.execute("SELECT * FROM jobs WHERE substr(uuid, 1, ?) = ?",
+                                   (len(ref), ref.lower())).fetchall()
             row = rows[0] if len(rows) == 1 else None
         if row is None:
             known = [r[0] for r in self.db.execute(
