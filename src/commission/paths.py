@@ -13,12 +13,21 @@ from pathlib import Path
 APP = "commission"
 
 
+def _expand(path: str | Path, where: str) -> Path:
+    try:
+        return Path(path).expanduser()
+    except RuntimeError:  # '~nosuchuser/...'
+        from .errors import UserError
+
+        raise UserError(f"{where} {path}: no such user's home folder") from None
+
+
 def register_path(option: str | Path | None = None) -> Path:
     if option:
-        return Path(option).expanduser()
+        return _expand(option, "--register")
     env = os.environ.get("COMMISSION_REGISTER")
     if env:
-        return Path(env).expanduser()
+        return _expand(env, "COMMISSION_REGISTER")
     from platformdirs import user_data_dir
 
     return Path(user_data_dir(APP, appauthor=False)) / "register.sqlite3"
@@ -27,7 +36,7 @@ def register_path(option: str | Path | None = None) -> Path:
 def config_dir() -> Path:
     env = os.environ.get("COMMISSION_HOME")
     if env:
-        return Path(env).expanduser()
+        return _expand(env, "COMMISSION_HOME")
     from platformdirs import user_config_dir
 
     return Path(user_config_dir(APP, appauthor=False))

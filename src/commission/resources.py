@@ -31,14 +31,18 @@ def shipped(kind: str) -> dict[str, Path]:
 
 def resolve(kind: str, name_or_path: str) -> Path:
     """A path as given if it exists, else the shipped file of that name."""
-    path = Path(name_or_path).expanduser()
-    if path.is_file():
-        return path
+    try:
+        path = Path(name_or_path).expanduser()
+        if path.is_file():
+            return path
+        exists = path.exists()
+    except (OSError, RuntimeError):  # a name too long, '~nosuchuser/...': not a file here
+        exists = False
     names = shipped(kind)
     key = name_or_path.removesuffix(".yaml")
     if key in names:
         return names[key]
-    if path.exists():
+    if exists:
         raise UserError(f"{name_or_path}: is not a file")
     accepted = ", ".join(sorted(names)) or "none"
     raise UserError(

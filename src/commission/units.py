@@ -167,8 +167,10 @@ def quantity_of_unit(symbol: str) -> str | None:
     return None
 
 
+@lru_cache(maxsize=512)
 def unit_fits(symbol: str, quantity: str) -> bool:
-    """True if ``symbol`` is a unit of ``quantity`` (for checklist validation)."""
+    """True if ``symbol`` is a unit of ``quantity`` (for checklist validation; cached,
+    since every job opened validates its checklist again)."""
     import pint
 
     q = QUANTITIES[quantity]

@@ -15,6 +15,7 @@ isolated measurement front end with its own rated inputs.
 from __future__ import annotations
 
 import os
+import struct
 import wave
 from collections.abc import Iterator
 
@@ -108,7 +109,9 @@ class WavCaptureStream:
             remaining = self.frames
             while remaining > 0:
                 raw = w.readframes(min(self._chunk, remaining))
-                got = len(raw) // (self.channels * self.sample_width_bytes)
+                frame = self.channels * self.sample_width_bytes
+                got = len(raw) // frame
+                raw = raw[: got * frame]  # a file cut partway through a frame
                 if got == 0:
                     raise CaptureError(
                         f"{self.source}: the file ends after {self.frames - remaining} of its "
@@ -157,8 +160,9 @@ def _open(source):
         raise CaptureError(f"{source}: no such file") from None
     except IsADirectoryError:
         raise CaptureError(f"{source}: is a directory, not a WAV file") from None
-    except (wave.Error, EOFError) as exc:
-        detail = str(exc) or "truncated header"
+    except (wave.Error, EOFError, RuntimeError, struct.error) as exc:
+        # RuntimeError and struct.error: the wave module on a chunk size that lies
+        detail = str(exc) or "truncated or damaged header"
         hint = ""
         if detail.endswith("unknown format: 3"):
             hint = "; floating-point WAV is not supported, export 16- or 24-bit integer PCM"

@@ -52,7 +52,7 @@ def parse_answer(item: Item, text: str, base: Path | None = None) -> Answer:
         for option in options:
             if raw.lower() == option.lower():
                 return Answer(option, echo=option)
-        if raw.isdigit() and 1 <= int(raw) <= len(options):
+        if raw.isdecimal() and 1 <= int(raw) <= len(options):  # not isdigit: "²"
             option = options[int(raw) - 1]
             return Answer(option, echo=f"read as {option}")
         listed = ", ".join(f"{n} {o}" for n, o in enumerate(options, 1))
@@ -62,18 +62,28 @@ def parse_answer(item: Item, text: str, base: Path | None = None) -> Answer:
     if item.kind == "text":
         return Answer(raw, echo="")
     # file and photo: a path to something taken on site
-    path = Path(raw).expanduser()
+    try:
+        path = Path(raw).expanduser()
+    except RuntimeError:  # '~nosuchuser/...'
+        raise BadAnswer(f"{quote_typed(raw)}: no such user's home folder; give the path of "
+                        f"the {item.kind}") from None
     if base is not None and not path.is_absolute():
         path = base / path
-    if not path.is_file():
-        what = "a folder" if path.is_dir() else "no such file"
-        raise BadAnswer(f"{quote_typed(raw)}: {what}; give the path of the {item.kind}")
-    size = path.stat().st_size
-    if size == 0:
-        raise BadAnswer(f"{quote_typed(raw)}: the file is empty")
+    try:
+        if not path.is_file():
+            what = "a folder" if path.is_dir() else "no such file"
+            raise BadAnswer(f"{quote_typed(raw)}: {what}; give the path of the {item.kind}")
+        size = path.stat().st_size
+        if size == 0:
+            raise BadAnswer(f"{quote_typed(raw)}: the file is empty")
+        head = b""
+        if item.kind == "photo":
+            with path.open("rb") as handle:
+                head = handle.read(8)
+    except OSError as exc:  # a name too long, no permission, ...
+        raise BadAnswer(f"{quote_typed(raw)}: cannot be read ({exc.strerror or exc}); give "
+                        f"the path of the {item.kind}") from None
     if item.kind == "photo":
-        with path.open("rb") as handle:
-            head = handle.read(8)
         kind = next((k for magic, k in _IMAGE_MAGIC.items() if head.startswith(magic)), None)
         if kind is None:
             raise BadAnswer(f"{quote_typed(raw)}: not a JPEG or PNG image (accepted: .jpg, .png)")
