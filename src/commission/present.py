@@ -25,9 +25,44 @@ _COLOURS = {"pass": "green", "fail": "red", "review": "yellow", "n/a": "cyan",
 
 def use_colour(stream=None) -> bool:
     stream = stream or sys.stdout
-    if os.environ.get("NO_COLOR") or os.environ.get("COMMISSION_PLAIN"):
+    if os.environ.get("NO_COLOR") or plain_mode():
         return False
     return hasattr(stream, "isatty") and stream.isatty()
+
+
+def plain_mode() -> bool:
+    """``commission --plain`` (or ``COMMISSION_PLAIN=1``): no colour, no typographic
+    symbols on the terminal; every meaning in words and ASCII."""
+    return bool(os.environ.get("COMMISSION_PLAIN"))
+
+
+# Terminal symbols and their ASCII spelling in plain mode. Unit symbols (Ω, °, µ, ², ³)
+# and Greek letters used as quantity symbols (IΔn, τ, φ, ρ, α) carry meaning and stay.
+_PLAIN_SYMBOLS = str.maketrans({
+    "→": "->", "←": "<-", "·": "-", "…": "...", "—": "-", "–": "-", "−": "-",
+    "≤": "<=", "≥": ">=", "≠": "!=", "≈": "~", "±": "+/-", "×": "x", "½": "1/2",
+    "∞": "inf", "•": "*", "⚠": "!", "‘": "'", "’": "'", "“": '"', "”": '"',
+})
+
+
+def plain_text(text: str) -> str:
+    """Text for the terminal: unchanged, or in plain mode with symbols spelled in ASCII
+    (a line that grows past 80 columns is wrapped again at its own indent). Only for what
+    is shown on a terminal; never for the PDF or JSON."""
+    if not plain_mode():
+        return text
+    lines = []
+    for line in text.translate(_PLAIN_SYMBOLS).split("\n"):
+        if len(line) <= WIDTH:
+            lines.append(line)
+            continue
+        indent = " " * (len(line) - len(line.lstrip(" ")))
+        lines += textwrap.wrap(line, WIDTH, subsequent_indent=indent + "  ") or [line]
+    return "\n".join(lines)
+
+
+def _ellipsis() -> str:
+    return "..." if plain_mode() else "…"
 
 
 def word(verdict: str, colour: bool = False) -> str:
@@ -99,7 +134,7 @@ def table(results: list[Result], colour: bool = False) -> list[str]:
         mark = "!" if r.item.critical else " "
         value = value_text(r)
         verdict = word(f"{r.verdict:<7}", colour) if colour else f"{r.verdict:<7}"
-        ident = r.item.id if len(r.item.id) <= 33 else r.item.id[:32] + "…"
+        ident = r.item.id if len(r.item.id) <= 33 else _clip(r.item.id, 33)
         lines.append(f"{verdict} {mark}{ident:<33} {_clip(value, WIDTH - 43)}".rstrip())
         plain = r.item.check is None and r.verdict == "pass"
         if r.verdict == "pending" or plain:
@@ -116,7 +151,8 @@ def table(results: list[Result], colour: bool = False) -> list[str]:
 
 
 def _clip(text: str, width: int) -> str:
-    return text if len(text) <= width else text[: width - 1] + "…"
+    mark = _ellipsis()
+    return text if len(text) <= width else text[: width - len(mark)] + mark
 
 
 def _section_title(r: Result) -> str:

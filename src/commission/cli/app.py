@@ -1,8 +1,6 @@
 """The ``commission`` command. Only typer is imported at start-up; every command
 imports what it needs when it runs, so ``commission --help`` is instant."""
 
-from __future__ import annotations
-
 import os
 import sys
 
@@ -41,15 +39,36 @@ app.command("import")(friendly(report.import_))
 app.command("blank")(friendly(report.blank))
 
 
-@app.callback()
-def _root(
-    version: bool = typer.Option(False, "--version", help="Print the version and exit."),
-) -> None:
-    if version:
+def _plain(value: bool) -> bool:
+    """--plain, handled before --help (eager) so that help is plain too."""
+    if value:
+        os.environ["COMMISSION_PLAIN"] = "1"  # present.use_colour and plain_text read it
+        import typer.core
+
+        typer.core.HAS_RICH = False  # help and usage errors as plain text, no boxes
+    return value
+
+
+def _version(value: bool) -> bool:
+    """--version, handled while the options are read (eager): no command is needed."""
+    if value:
         from .. import __version__
 
         typer.echo(f"commission {__version__}")
         raise typer.Exit(0)
+    return value
+
+
+@app.callback()
+def _root(
+    version: bool = typer.Option(False, "--version", is_eager=True, callback=_version,
+                                 help="Print the version and exit."),
+    plain: bool = typer.Option(
+        False, "--plain", is_eager=True, callback=_plain,
+        help="Plain output for screen readers and basic terminals: no colour, no boxes, "
+        "arrows or other symbols; every meaning in words. Give it before the command."),
+) -> None:
+    """Both options act while they are read (see _version and _plain)."""
 
 
 def main(argv: list[str] | None = None) -> int:

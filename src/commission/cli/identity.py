@@ -4,8 +4,6 @@ Only typer is imported here at start-up; cryptography and pyHanko load inside th
 commands.
 """
 
-from __future__ import annotations
-
 from pathlib import Path
 from typing import Annotated
 
@@ -255,7 +253,10 @@ def countersign(
         tmp.write_bytes(signed)
         os.replace(tmp, out)
     except OSError as exc:
-        tmp.unlink(missing_ok=True)
+        import contextlib
+
+        with contextlib.suppress(OSError):  # e.g. the folder is a file: nothing to remove
+            tmp.unlink(missing_ok=True)
         raise UserError(f"{out}: cannot write ({exc.strerror})") from None
     first = before.signatures[0]
     typer.echo(f"countersigned by {me.name}: {out}")

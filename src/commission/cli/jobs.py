@@ -1,7 +1,5 @@
 """commission new | jobs | show | amend | backup"""
 
-from __future__ import annotations
-
 from pathlib import Path
 from typing import Annotated
 
@@ -81,25 +79,30 @@ def show(
             return
     import textwrap
 
+    from ..present import plain_text
+
+    def echo(text: str) -> None:
+        typer.echo(plain_text(text))
+
     colour = use_colour()
     j = state.job
     c = state.checklist
-    typer.echo(f"Job {j.short_id} · {j.details['site']}")
+    echo(f"Job {j.short_id} · {j.details['site']}")
     for key in ("address", "client", "installer", "installer_contact"):
         if j.details.get(key):
-            typer.echo(f"  {key.replace('_', ' ')}: {j.details[key]}")
-    typer.echo(f"  checklist: {c.id} {c.version} (sha256 {j.checklist_sha256[:12]}…)")
+            echo(f"  {key.replace('_', ' ')}: {j.details[key]}")
+    echo(f"  checklist: {c.id} {c.version} (sha256 {j.checklist_sha256[:12]}…)")
     status = state.status(results)
-    typer.echo(f"Status: {word(status, colour)}")
+    echo(f"Status: {word(status, colour)}")
     for reason in status_reasons(results):
-        typer.echo(textwrap.fill(f"- {reason}", WIDTH, initial_indent="  ",
-                                 subsequent_indent="    "))
-    typer.echo(textwrap.fill(SIGN_CONVENTION, WIDTH))
+        echo(textwrap.fill(f"- {reason}", WIDTH, initial_indent="  ",
+                           subsequent_indent="    "))
+    echo(textwrap.fill(SIGN_CONVENTION, WIDTH))
     for line in table(results, colour):
-        typer.echo(line)
-    typer.echo("")
-    typer.echo("! = critical. Verdicts: pass, fail, review (needs judgement or data),")
-    typer.echo("n/a, pending.")
+        echo(line)
+    echo("")
+    echo("! = critical. Verdicts: pass, fail, review (needs judgement or data),")
+    echo("n/a, pending.")
 
 
 def amend(

@@ -1,7 +1,5 @@
 """commission walk"""
 
-from __future__ import annotations
-
 import sys
 from pathlib import Path
 from typing import Annotated
@@ -24,10 +22,14 @@ class _Tty:
             import readline  # noqa: F401  (line editing and history for input())
 
     def ask(self, prompt: str) -> str:
-        return input(prompt)
+        from ..present import plain_text
+
+        return input(plain_text(prompt))
 
     def say(self, text: str = "") -> None:
-        sys.stdout.write(text + "\n")
+        from ..present import plain_text
+
+        sys.stdout.write(plain_text(text) + "\n")
         sys.stdout.flush()
 
 

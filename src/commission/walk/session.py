@@ -260,7 +260,7 @@ class Walk:
         job = self.state.job
         c = self.state.checklist
         self.term.say(f"Job {job.short_id} · {job.details.get('site', '')}")
-        self.term.say(f"Checklist {c.id} {c.version}: {c.title}")
+        self.term.say(_wrap(f"Checklist {c.id} {c.version}: {c.title}"))
         for caution in c.cautions:
             self.term.say(_wrap(f"CAUTION: {caution}"))
         self.term.say(_wrap(SIGN_CONVENTION))
