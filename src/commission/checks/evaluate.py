@@ -88,12 +88,14 @@ def evaluate(
     """
     instruments = instruments or {}
     current, history = current_entries(entries)
+    pairs = checklist.items()
+    by_id = {item.id: item for _, item in pairs}
     applicable: dict[str, bool] = {}
-    for _, item in checklist.items():
-        applicable[item.id] = _applies(item, current, applicable, checklist)
+    for _, item in pairs:
+        applicable[item.id] = _applies(item, current, applicable, by_id)
 
     results: list[Result] = []
-    for section, item in checklist.items():
+    for section, item in pairs:
         entry = current.get(item.id)
         base = {"item": item, "section": section.id, "entry": entry,
                 "history": history.get(item.id, []), "section_title": section.title}
@@ -132,7 +134,7 @@ def evaluate(
 
 
 def _applies(item: Item, current: dict[str, Entry], applicable: dict[str, bool],
-             checklist: Checklist) -> bool:
+             by_id: dict[str, Item]) -> bool:
     if item.when is None:
         return True
     target_id = item.when.item
@@ -141,7 +143,7 @@ def _applies(item: Item, current: dict[str, Entry], applicable: dict[str, bool],
     entry = current.get(target_id)
     if entry is None or entry.action != "answer":
         return True  # not known yet: assume the item applies (the safe side)
-    word = _answer_word(checklist.item(target_id), entry.value)
+    word = _answer_word(by_id[target_id], entry.value)
     return word in item.when.accepts()
 
 
