@@ -69,7 +69,7 @@ def render(loaded: Loaded) -> bytes:
             rows.append([_p(f"{mark}{item.id}\n{what}", st["cell"]),
                          _p(f"{expected}\n{source}" if expected else source, st["cell"]),
                          _p("\n\n", st["cell"]), _p("", st["cell"])])
-        story.append(_table(rows, [170, 170, 80, 60]))
+        story.append(_table(rows, [165, 145, 115, 55]))
     story += [Spacer(1, 10), _p("Signed: ______________________  Registration: ___________  "
                                 "Date: __________", st["base"])]
 
