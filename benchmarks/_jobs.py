@@ -96,13 +96,15 @@ def make_job(folder: Path, total_items: int, *, answer_extra: bool = True) -> Be
     folder.mkdir(parents=True, exist_ok=True)
     text, shipped, extra_ids = padded_checklist(total_items)
     loaded = parse(text, f"{SHIPPED}+{total_items - shipped}")
+    from commission.cli.demo import _due
+
     scenario = yaml.safe_load((demo_dir() / "scenario.yaml").read_text(encoding="utf-8"))
     answers = demo_answers(folder / "answers.yaml")
     path = folder / f"register-{total_items}.sqlite3"
     with Register(path) as reg:
         for inst in scenario["instruments"]:
             reg.add_instrument(inst["serial"], inst["make"], inst["model"],
-                               str(inst["calibration_due"]))
+                               _due(inst["calibration_due"]))
         job = reg.create_job(loaded, scenario["job"], by="bench")
         state = JobState(reg, job)
         report = apply_answers(state, answers)

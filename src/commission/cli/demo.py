@@ -8,6 +8,16 @@ import typer
 DEMO_PASSPHRASE = "larch-house-demo"  # the demo's own throw-away key; never for real work
 
 
+def _due(value: object) -> str:
+    """A calibration date from the scenario: ISO, or '+Nd' days from today."""
+    import datetime as dt
+
+    text = str(value)
+    if text.startswith("+") and text.endswith("d"):
+        return (dt.date.today() + dt.timedelta(days=int(text[1:-1]))).isoformat()
+    return text
+
+
 def demo(
     out: Annotated[
         Path | None,
@@ -54,7 +64,7 @@ def demo(
     with Register(register) as reg:
         for inst in scenario["instruments"]:
             reg.add_instrument(inst["serial"], inst["make"], inst["model"],
-                               str(inst["calibration_due"]))
+                               _due(inst["calibration_due"]))
         job = reg.create_job(loaded, details, by="demo")
         state = JobState(reg, job)
         report = apply_answers(state, demo_dir() / scenario["answers"])
