@@ -88,3 +88,30 @@ def test_same_answer_adds_nothing(state):
     Walk(state, term).run()
     assert "same as before; nothing added" in term.text
     assert len(state.reg.entries(state.job)) == 1
+
+
+def test_copies_left_by_a_killed_process_are_swept(state, tmp_path, monkeypatch):
+    """A folder of file copies whose process no longer exists is removed on the next use."""
+    import os
+    import subprocess
+    import sys
+    import tempfile
+
+    from commission.walk.state import FileStore
+
+    monkeypatch.setattr(tempfile, "tempdir", str(tmp_path))
+    dead = subprocess.run([sys.executable, "-c", "import os; print(os.getpid())"],
+                          capture_output=True, text=True).stdout.strip()
+    stale = tmp_path / f"commission-files-{dead}-abc"
+    stale.mkdir()
+    (stale / "photo").write_bytes(b"x")
+    mine = tmp_path / f"commission-files-{os.getpid()}-keep"
+    mine.mkdir()
+    photo = tmp_path / "p.bin"
+    photo.write_bytes(b"site photo bytes")
+    sha, _ = state.reg.put_file(photo)
+    store = FileStore(state.reg)
+    assert store.path(sha).read_bytes() == b"site photo bytes"
+    assert not stale.exists()
+    assert mine.exists()
+    store.close()

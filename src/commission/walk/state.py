@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import hashlib
+import os
 import shutil
 import tempfile
 import weakref
@@ -14,6 +15,22 @@ from ..checklist.model import Item
 from ..checks.evaluate import Result, evaluate, job_status
 from ..register.store import Entry, Instrument, Job, Register
 from .values import Answer
+
+_PREFIX = "commission-files-"
+
+
+def _sweep_stale_copies() -> None:
+    """Remove copies left by a process that was killed (they may hold site photos)."""
+    for folder in Path(tempfile.gettempdir()).glob(f"{_PREFIX}*-*"):
+        pid_text = folder.name[len(_PREFIX):].split("-", 1)[0]
+        if not pid_text.isdecimal() or int(pid_text) == os.getpid():
+            continue
+        try:
+            os.kill(int(pid_text), 0)
+        except ProcessLookupError:
+            shutil.rmtree(folder, ignore_errors=True)
+        except (PermissionError, OverflowError, OSError):
+            continue  # alive under another user, or not ours to judge
 
 
 class FileStore:
@@ -32,7 +49,8 @@ class FileStore:
         found = None
         if self.reg.has_blob(sha256):
             if self._dir is None:
-                self._dir = Path(tempfile.mkdtemp(prefix="commission-files-"))
+                _sweep_stale_copies()
+                self._dir = Path(tempfile.mkdtemp(prefix=f"{_PREFIX}{os.getpid()}-"))
             target = self._dir / sha256
             digest = hashlib.sha256()
             with target.open("wb") as out:
