@@ -76,6 +76,7 @@ class JobState:
     instruments: dict[int, Instrument] = field(init=False)
     entries: list[Entry] = field(init=False)
     files: FileStore = field(init=False)
+    _results: tuple[int, list[Result]] | None = field(default=None, init=False, repr=False)
 
     def __post_init__(self) -> None:
         # The job keeps the checklist text it was made with: a changed file on disk
@@ -91,7 +92,12 @@ class JobState:
         return self.loaded.checklist
 
     def results(self) -> list[Result]:
-        return evaluate(self.checklist, self.entries, self.instruments, self.files)
+        """Verdicts for the entries as they stand; recomputed only after a new entry
+        (entries are append-only and every one goes through ``_append``)."""
+        if self._results is None or self._results[0] != len(self.entries):
+            self._results = (len(self.entries),
+                             evaluate(self.checklist, self.entries, self.instruments, self.files))
+        return self._results[1]
 
     def status(self, results: list[Result] | None = None) -> str:
         return job_status(results if results is not None else self.results())
