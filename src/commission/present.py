@@ -104,22 +104,13 @@ def verdict_lines(result: Result, colour: bool = False, indent: str = "  ") -> l
     if result.expected is not None:
         extra.append(f"expected {result.expected.text()}")
     if result.measured is not None and result.measured.unit:
-        extra.append(f"measured {_measured(result)}")
+        extra.append(f"measured {result.measured.text()}")
     if extra:
         lines += textwrap.wrap("; ".join(extra), WIDTH, initial_indent=indent + "    ",
                                subsequent_indent=indent + "    ")
     lines += textwrap.wrap(f"source: {result.source}", WIDTH, initial_indent=indent + "    ",
                            subsequent_indent=indent + "      ")
     return lines
-
-
-def _measured(result: Result) -> str:
-    from .units import format_number
-
-    m = result.measured
-    assert m is not None
-    v = format_number(m.value) if isinstance(m.value, int | float) else str(m.value)
-    return f"{v} {m.unit}" if m.unit else v
 
 
 def table(results: list[Result], colour: bool = False) -> list[str]:

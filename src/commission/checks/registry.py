@@ -35,6 +35,12 @@ class Measured:
     def as_json(self) -> dict[str, Any]:
         return {"value": self.value, "unit": self.unit}
 
+    def text(self) -> str:
+        from ..units import format_number
+
+        v = format_number(self.value) if isinstance(self.value, int | float) else str(self.value)
+        return f"{v} {self.unit}" if self.unit else v
+
 
 @dataclass(frozen=True)
 class Expected:

@@ -33,6 +33,13 @@ def _reading(c, item_id: str) -> float | None:
         return None
 
 
+def _expected_rate(result) -> float:
+    """The predicted heating rate behind a heating verdict: its band's lower bound divided
+    by the band's lower factor (the check's parameter, 0.85 by default)."""
+    params = result.item.check.params if result.item.check else {}
+    return result.expected.min / float(params.get("band_low", 0.85))
+
+
 def chart_flowables(c) -> list[Any]:
     from reportlab.platypus import KeepTogether, Paragraph, Spacer
 
@@ -73,9 +80,7 @@ def chart_flowables(c) -> list[Any]:
     if None not in (start, end, seconds) and heat is not None and heat.expected is not None \
             and heat.expected.min is not None:
         minutes = seconds / 60.0
-        band_low = float((heat.item.check.params if heat.item.check else {}).get("band_low",
-                                                                                 0.85))
-        expected_rate = heat.expected.min / band_low
+        expected_rate = _expected_rate(heat)
         measured = [(0.0, start), (minutes, end)]
         predicted = [(0.0, start), (minutes, start + expected_rate * minutes / 60.0)]
         add(charts.temperature_curve(
@@ -126,9 +131,7 @@ def add_heating_log(c, add) -> bool:
         fit = water.fit_heating_rate(log.time_s, log.temp_c)
     except (CaptureError, ValueError):
         return False
-    band_low = float((judged_item.item.check.params if judged_item.item.check else {})
-                     .get("band_low", 0.85))
-    expected_rate = judged_item.expected.min / band_low
+    expected_rate = _expected_rate(judged_item)
     t_min = [float(x) / 60.0 for x in log.time_s]
     logged = list(zip(t_min, [float(x) for x in log.temp_c], strict=True))
     if len(logged) > 400:

@@ -255,11 +255,7 @@ def _results(c: _Context) -> list:
         value = c.value(r.item.id, default="")
         measured = value
         if r.measured is not None and r.measured.unit:
-            from ..units import format_number
-
-            m = r.measured.value
-            shown = format_number(m) if isinstance(m, int | float) else str(m)
-            figure = f"{shown} {r.measured.unit}"
+            figure = r.measured.text()
             if not value:
                 measured = figure
             elif figure != value:
