@@ -139,3 +139,36 @@ def test_out_of_range_inputs():
         pc.firing_angle_for_fraction(1.2)
     with pytest.raises(ValueError):
         pc.current_fourier_coefficients(0, 1.0, 1.0)
+
+
+def test_conduction_power_fraction_against_quad_and_checks_md():
+    """x − sin(2πx)/(2π) against scipy.integrate.quad of sin² over the conducting part, and
+    CHECKS.md's figures: 20 % of the time → 4.9 %, 80 % → 95.1 %."""
+    for x in (0.0, 0.2, 0.37, 0.5, 0.8, 1.0):
+        alpha = math.pi * (1 - x)
+        want = integrate.quad(lambda t: math.sin(t) ** 2, alpha, math.pi)[0] / (math.pi / 2)
+        assert pc.conduction_power_fraction(x) == pytest.approx(want, abs=1e-9)
+    assert pc.conduction_power_fraction(0.2) == pytest.approx(0.049, abs=5e-4)
+    assert pc.conduction_power_fraction(0.8) == pytest.approx(0.951, abs=5e-4)
+
+
+def test_forced_mode_deviations_identify_each_law():
+    """Readings generated from each law (with 1 % noise) sit within 3 % of full power of
+    their own law and far from the other; random readings fit neither."""
+    rng = np.random.default_rng(13)
+    settings = np.array([0.2, 0.5, 1.0])
+    full = 3000.0
+    for law in ("power", "time"):
+        frac = settings if law == "power" else pc.conduction_power_fraction(settings)
+        p = full * frac * (1 + rng.normal(0, 0.01, 3))
+        fit = pc.forced_mode_deviations(settings, p, p[-1])
+        own, other = ((fit.power_linear_max_dev, fit.time_linear_max_dev) if law == "power"
+                      else (fit.time_linear_max_dev, fit.power_linear_max_dev))
+        assert own <= 0.03 < other
+    misses = 0
+    for seed in range(50):
+        r = np.random.default_rng(seed)
+        p = np.append(r.uniform(0, full, 2), full)
+        fit = pc.forced_mode_deviations(settings, p, full)
+        misses += min(fit.power_linear_max_dev, fit.time_linear_max_dev) > 0.03
+    assert misses >= 45

@@ -259,3 +259,53 @@ def read_capture_wav(path, *, voltage_full_scale_v, current_full_scale_a, voltag
 def _frames_hint(path):
     with _open(os.fspath(path)) as w:
         return w.getnframes()
+
+
+def read_voltage_wav(path, *, voltage_full_scale_v, channel=1):
+    """Read one voltage channel of a PCM WAV file (mono or multichannel) into memory.
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+        WAV file (integer PCM).
+    voltage_full_scale_v : float
+        Voltage at full scale [V].
+    channel : int, default 1
+        Channel holding the voltage, numbered from 1.
+
+    Returns
+    -------
+    (float, numpy.ndarray, tuple of str)
+        Sample rate [Hz], voltage [V], warnings (clipping).
+    """
+    source = os.fspath(path)
+    if not voltage_full_scale_v:
+        raise CaptureError(f"{source}: the voltage at full scale must be non-zero")
+    with _open(source) as w:
+        channels, width = w.getnchannels(), w.getsampwidth()
+        rate, frames = float(w.getframerate()), w.getnframes()
+        if int(channel) != channel or not 1 <= channel <= channels:
+            raise CaptureError(f"{source}: voltage channel {channel!r} does not exist; the file "
+                               f"has {channels} channel(s), numbered from 1")
+        if width not in (1, 2, 3, 4):
+            raise CaptureError(f"{source}: {8 * width}-bit samples are not supported; use 8-, "
+                               "16-, 24- or 32-bit PCM")
+        if frames == 0:
+            raise CaptureError(f"{source}: the WAV file holds no samples")
+        parts, got_total = [], 0
+        while got_total < frames:
+            raw = w.readframes(min(_DEFAULT_CHUNK_FRAMES, frames - got_total))
+            got = len(raw) // (channels * width)
+            if got == 0:
+                raise CaptureError(f"{source}: the file ends after {got_total} of its {frames} "
+                                   "frames (truncated)")
+            codes, full = _decode(raw[: got * channels * width], width, channels)
+            parts.append(codes[:, int(channel) - 1] * (float(voltage_full_scale_v) / full))
+            got_total += got
+    voltage = np.concatenate(parts)
+    warnings = []
+    rail = int(np.count_nonzero(np.abs(voltage) >= abs(voltage_full_scale_v) * (1 - 1 / full)))
+    if rail:
+        warnings.append(f"{source}: {rail} voltage samples sit at the converter's full scale: "
+                        "the reading is probably clipped; use a larger range")
+    return rate, voltage, tuple(warnings)

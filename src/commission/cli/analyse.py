@@ -849,3 +849,74 @@ def regulation(
     lines += _para(SIGN_CONVENTION)
     lines += _verdict_lines(judged.verdict, judged.reason + " (common practice)")
     _print(lines)
+
+
+# -- flicker -------------------------------------------------------------------------------
+
+FLICKER_HELP = (
+    "Short-term flicker severity Pst of a voltage capture of 10 minutes or more, from a "
+    "digital flickermeter after IEC 61000-4-15 (one Pst per complete ten-minute window), "
+    "against the IEC 61000-3-3 limit (Pst ≤ 1.0 by default). The capture is a PCM WAV "
+    "file from a logger or an isolated measurement front end; give the volts at full "
+    "scale with --v-scale. The mains frequency (50 or 60 Hz) is read from the capture."
+    "\n\n" + SAFETY
+)
+
+
+@app.command(help=FLICKER_HELP, short_help="Voltage capture: flicker severity Pst.")
+@friendly
+def flicker(
+    file: Annotated[str, typer.Argument(
+        metavar="FILE", show_default=False,
+        help="PCM WAV voltage capture, 10 minutes or more.")],
+    v_scale: Annotated[str | None, typer.Option(
+        "--v-scale", metavar="V", show_default=False,
+        help="Volts at full scale of the WAV samples (required).")] = None,
+    channel: Annotated[str | None, typer.Option(
+        "--channel", metavar="N", show_default=False,
+        help="Channel holding the voltage, from 1 (default 1).")] = None,
+    limit: Annotated[str | None, typer.Option(
+        "--limit", metavar="PST", show_default=False,
+        help="Pst limit (default 1.0, IEC 61000-3-3, from memory).")] = None,
+    as_json: JsonOpt = False,
+) -> None:
+    """Command body; the help text is FLICKER_HELP."""
+    from ..errors import UserError
+
+    full = _required(_number(v_scale, "--v-scale", "the volts at full scale, e.g. 500",
+                             positive=True),
+                     "--v-scale", "give the volts at full scale of the capture, e.g. 500")
+    ch = 1
+    if channel is not None:
+        try:
+            ch = int(channel.strip())
+        except ValueError:
+            raise UserError(f"--channel: {channel!r} is not a channel number; give 1, 2, …") \
+                from None
+        if ch < 1:
+            raise UserError(f"--channel: {ch} is not a channel number; channels count from 1")
+    lim = _number(limit, "--limit", "a Pst value, e.g. 1.0", positive=True, maximum=100.0)
+    lim = 1.0 if lim is None else lim
+
+    from ..analyses.flicker import SRC_FLICKER, analyse_flicker
+
+    progress = _Progress(file)
+    try:
+        with _bad_input(file, "voltage on --channel N"):
+            progress.say("reading and filtering")
+            result = analyse_flicker(file, voltage_full_scale_v=full, channel=ch, limit=lim)
+    finally:
+        progress.close()
+    for note in result.warnings:
+        _warn(note)
+    if as_json:
+        emit_json(result.as_json())
+        return
+    lines = _para(f"{file}: {result.duration_s / 60:.1f} min at {result.sample_rate_hz:g} Hz, "
+                  f"{result.mains_hz} Hz mains")
+    for n, value in enumerate(result.pst, start=1):
+        lines += _row(f"Pst window {n}", f"{value:.3f}", "IEC 61000-4-15 (10 min)")
+    lines += _row("Pinst maximum", f"{result.pinst_max:.2f}", "instantaneous flicker sensation")
+    lines += _para(f"source: {SRC_FLICKER}")
+    lines += _verdict_lines(result.verdict, result.reason)
+    _print(lines)

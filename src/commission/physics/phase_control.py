@@ -382,3 +382,70 @@ def burst_fire_power_w(full_power_w, cycles_on, cycles_total):
     if int(cycles_on) != cycles_on or not 0 <= cycles_on <= cycles_total:
         raise ValueError("cycles_on must be an integer between 0 and cycles_total")
     return full_power_w * cycles_on / cycles_total
+
+
+def conduction_power_fraction(conducting_share):
+    """Power of a phase-cut resistive element against the conducting share of each half-cycle.
+
+    With ``x = 1 - alpha/pi``: ``P/P0 = x - sin(2*pi*x)/(2*pi)`` (the closed form of
+    :func:`power_fraction` rewritten; CHECKS.md, "The clamp from a phase-cut current"). A
+    forced "20 %" that means 20 % of the half-cycle delivers 4.9 % of full power.
+
+    Parameters
+    ----------
+    conducting_share : numeric
+        Share of each half-cycle that conducts, 0...1 [1].
+
+    Returns
+    -------
+    numeric
+        Power fraction [1].
+    """
+    x = np.asarray(conducting_share, dtype=float)
+    if np.any((x < 0) | (x > 1)) or not np.all(np.isfinite(x)):
+        raise ValueError("the conducting share must lie between 0 and 1")
+    return power_fraction(math.pi * (1.0 - x))
+
+
+@dataclass(frozen=True)
+class ForcedModeFit:
+    """How far forced-mode readings sit from each law, in shares of full power."""
+
+    settings: tuple[float, ...]  # the diverter's percentages as fractions, 0...1
+    measured_fraction: tuple[float, ...]  # element power over full power
+    power_linear_max_dev: float  # max |measured - setting|
+    time_linear_max_dev: float  # max |measured - conduction_power_fraction(setting)|
+
+
+def forced_mode_deviations(settings, power_w, full_power_w) -> ForcedModeFit:
+    """Readings of element power at forced settings against the two laws a diverter may follow.
+
+    *Power-linear*: the setting is the share of power (burst fire, or phase control with the
+    angle from :func:`firing_angle_for_fraction`); *time-linear*: it is the conducting share of
+    each half-cycle, so power follows :func:`conduction_power_fraction`.
+
+    Parameters
+    ----------
+    settings : array_like
+        Forced settings as fractions, e.g. 0.2, 0.5, 1.0 [1].
+    power_w : array_like
+        Element power read at each setting [W].
+    full_power_w : float
+        Element power at full output (the 100 % reading, or the rated power) [W].
+
+    Returns
+    -------
+    ForcedModeFit
+        The largest deviation from each law [share of full power].
+    """
+    s = np.asarray(settings, dtype=float)
+    p = np.asarray(power_w, dtype=float)
+    if s.shape != p.shape or s.ndim != 1 or len(s) < 1:
+        raise ValueError("one power reading per setting")
+    if not (np.all(np.isfinite(p)) and math.isfinite(full_power_w)) or full_power_w <= 0:
+        raise ValueError("powers must be finite and full power positive")
+    y = p / full_power_w
+    power_dev = float(np.max(np.abs(y - s)))
+    time_dev = float(np.max(np.abs(y - conduction_power_fraction(s))))
+    return ForcedModeFit(tuple(float(v) for v in s), tuple(float(v) for v in y),
+                         power_dev, time_dev)
