@@ -110,6 +110,7 @@ INPUTS = [
                       "{F}"], "soak"),
     ("analyse-regulation", ["analyse", "regulation", "--dead-band-w", "50", "--", "{F}"],
      "regulation"),
+    ("analyse-flicker", ["analyse", "flicker", "--v-scale", "500", "--", "{F}"], None),
     ("register-option", ["jobs", "--register", "{F}"], None),  # a missing one is made
     ("register-option-show", ["show", "{JOB}", "--register", "{F}"], None),
 ]
