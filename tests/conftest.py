@@ -4,6 +4,8 @@ from __future__ import annotations
 
 import os
 import shutil
+import subprocess
+import sys
 from pathlib import Path
 
 import pytest
@@ -65,3 +67,16 @@ def need_tool(name: str):
         if os.environ.get("CI") == "true":
             pytest.fail(f"{name} is required in CI but not installed")
         pytest.skip(f"{name} not installed (CI installs it)")
+
+
+@pytest.fixture(scope="session")
+def demo_record(tmp_path_factory) -> Path:
+    """A demo record made once per session by the real `commission demo` in a subprocess,
+    in its own folder, for the tests that read the drawn pages."""
+    folder = tmp_path_factory.mktemp("demo") / "run"
+    env = {k: v for k, v in os.environ.items() if not k.startswith("COMMISSION_")}
+    env["NO_COLOR"] = "1"
+    done = subprocess.run([sys.executable, "-m", "commission.cli.app", "demo", "--out",
+                           str(folder)], capture_output=True, text=True, env=env, timeout=300)
+    assert done.returncode == 0, done.stderr
+    return next(folder.glob("record-*.pdf"))

@@ -167,3 +167,52 @@ def test_job_reference_is_not_a_pattern(cli, new_job):
         assert result.exit_code == 2, typed
         assert "not in" in result.stderr
     assert cli("show", job).exit_code == 0
+
+
+def test_register_from_schema_2_migrates_on_first_use(tmp_path, cli):
+    """tests/data/register-v2.sqlite3 was written by main's code at schema 2 (before the job
+    details of the handover record); sqlite3 itself reads the columns back."""
+    import shutil
+
+    from conftest import ROOT
+
+    old = tmp_path / "old.sqlite3"
+    shutil.copy(ROOT / "tests" / "data" / "register-v2.sqlite3", old)
+    db = sqlite3.connect(old)
+    assert db.execute("PRAGMA user_version").fetchone()[0] == 2
+    before = db.execute("SELECT uuid, raw, at, host FROM entries ORDER BY id").fetchall()
+    db.close()
+    result = cli("show", "CJQ9A", "--json", "--register", old)
+    assert result.exit_code == 0, result.stderr
+    data = json.loads(result.stdout)
+    assert data["job"]["site"] == "Fixture House (schema 2)"
+    assert data["job"]["client"] == "P. Lindqvist-Berg"  # the amendment survives
+    assert data["job"]["language"] == "" and data["job"]["timezone"] == ""
+    volt = next(i for i in data["items"] if i["id"] == "supply.voltage")
+    assert [h["raw"] for h in volt["history"]] == ["236 V", "237 V"]
+    db = sqlite3.connect(old)
+    assert db.execute("PRAGMA user_version").fetchone()[0] == SCHEMA_VERSION
+    assert db.execute("SELECT uuid, raw, at, host FROM entries ORDER BY id").fetchall() == before
+    cols = {r[1] for r in db.execute("PRAGMA table_info(jobs)")}
+    assert {"installer_address", "client_contact", "timezone", "language",
+            "next_inspection"} <= cols
+    assert db.execute("PRAGMA integrity_check").fetchone()[0] == "ok"
+    db.close()
+    # The new details can be set on the migrated job.
+    made = cli("amend", "CJQ9A", "--language", "fr", "--timezone", "Europe/Paris",
+               "--next-inspection", "2027-06-30", "--register", old)
+    assert made.exit_code == 0, made.stderr
+    data = json.loads(cli("show", "CJQ9A", "--json", "--register", old).stdout)
+    assert (data["job"]["language"], data["job"]["timezone"],
+            data["job"]["next_inspection"]) == ("fr", "Europe/Paris", "2027-06-30")
+
+
+def test_new_job_details_are_checked(cli):
+    """Bad time zone, language and date: one line each, exit 2 (zoneinfo's IANA database
+    and ISO 8601 dates as the reference)."""
+    for option, value, words in (("--timezone", "Mars/Olympus", "time zone"),
+                                 ("--language", "xx", "accepted: en, fr"),
+                                 ("--next-inspection", "31/12/2027", "YYYY-MM-DD")):
+        result = cli("new", "--checklist", "diverter-1ph", "--site", "S", option, value)
+        assert result.exit_code == 2, (option, result.stdout)
+        assert words in result.stderr and len(result.stderr.strip().splitlines()) == 1

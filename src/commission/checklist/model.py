@@ -98,6 +98,37 @@ class Condition(Strict):
         return f"{self.item} is {' or '.join(self.accepts())}"
 
 
+HOMEOWNER_ROLES = ("device", "location", "isolator", "settings", "lights", "keep_clear",
+                   "heater_power", "store_volume", "water_regime")
+
+
+class ItemReport(Strict):
+    """Where an item appears in the record besides the results table.
+
+    The record's layout code knows these roles, never item ids: any checklist can
+    feed the summary, the homeowner's pages, the findings on page 1 and the charts.
+    """
+
+    summary: str | None = Field(
+        default=None, description="label of this item's row in the record's summary table")
+    homeowner: Literal[HOMEOWNER_ROLES] | None = Field(  # type: ignore[valid-type]
+        default=None,
+        description="what this item's answer tells the homeowner: " + ", ".join(HOMEOWNER_ROLES))
+    limitations: bool = Field(
+        default=False, description="a text item listing the limitations of the inspection "
+        "(printed with the findings on page 1)")
+    chart: bool = Field(
+        default=False, description="draw this item's check as a chart (where the check has one "
+        "and its data exists)")
+
+
+class Interval(Strict):
+    """How long until the next inspection or service, with where that comes from."""
+
+    months: int = Field(ge=1, le=120)
+    source: str = Field(min_length=1)
+
+
 class Item(Strict):
     id: str = Field(pattern=ID_PATTERN, description="stable dotted id, e.g. supply.voltage")
     kind: Literal["confirm", "reading", "choice", "text", "file", "photo"]
@@ -116,6 +147,8 @@ class Item(Strict):
     )
     check: CheckSpec | None = None
     when: Condition | None = None
+    report: ItemReport = Field(default_factory=ItemReport,
+                               description="where the item appears in the record")
 
     @field_validator("options", mode="before")
     @classmethod
@@ -151,6 +184,8 @@ class Item(Strict):
                 raise ValueError("options must differ (case is ignored)")
         elif self.options is not None:
             raise ValueError("'options' belong to choice items only")
+        if self.report.limitations and self.kind != "text":
+            raise ValueError("'report: {limitations: true}' belongs to a text item")
         return self
 
 
@@ -173,6 +208,8 @@ class Checklist(Strict):
     version: str
     rules: RulesProfile
     cautions: list[str] = Field(default_factory=list)
+    inspection_interval: Interval | None = Field(
+        default=None, description="time to the next inspection or service, with its source")
     sections: list[Section] = Field(min_length=1)
 
     @field_validator("version", mode="before")

@@ -6,7 +6,7 @@ import sys
 
 import typer
 
-from . import analyse, checklists, demo, identity, instruments, jobs, report, walk
+from . import analyse, checklists, demo, forms, identity, instruments, jobs, report, walk
 from .common import friendly
 
 app = typer.Typer(
@@ -21,6 +21,7 @@ app = typer.Typer(
     context_settings={"help_option_names": ["-h", "--help"]},
 )
 app.add_typer(checklists.app, name="checklists")
+app.add_typer(forms.app, name="forms")
 app.add_typer(instruments.app, name="instruments")
 app.add_typer(identity.identity_app, name="identity")
 app.add_typer(identity.trust_app, name="trust")

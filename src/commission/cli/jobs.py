@@ -20,6 +20,16 @@ def new(
         str, typer.Option(help="Phone or e-mail the homeowner can call.")] = "",
     installer_registration: Annotated[
         str, typer.Option(help="Installer's registration or licence number.")] = "",
+    installer_address: Annotated[
+        str, typer.Option(help="Installer's postal address (printed for the homeowner).")] = "",
+    client_contact: Annotated[str, typer.Option(help="The client's phone or e-mail.")] = "",
+    timezone: Annotated[
+        str, typer.Option(help="The site's time zone, e.g. Europe/Paris (default UTC).")] = "",
+    language: Annotated[
+        str, typer.Option(help="Language of the homeowner's pages: en or fr.")] = "en",
+    next_inspection: Annotated[
+        str, typer.Option(help="Next inspection date, YYYY-MM-DD (default: the checklist's "
+                          "interval).")] = "",
     register: RegisterOpt = None,
 ) -> None:
     """Start a job on a checklist; prints the new job's id as the last line."""
@@ -32,12 +42,47 @@ def new(
     loaded = load(resolve("checklists", checklist))
     details = {"site": site.strip(), "address": address, "client": client,
                "installer": installer, "installer_contact": installer_contact,
-               "installer_registration": installer_registration}
+               "installer_registration": installer_registration,
+               "installer_address": installer_address, "client_contact": client_contact,
+               **checked_details(timezone=timezone, language=language,
+                                 next_inspection=next_inspection)}
     with open_register(register) as reg:
         job = reg.create_job(loaded, details)
         typer.echo(f"job for {job.details['site']} on {loaded.checklist.id} "
                    f"{loaded.checklist.version}, register {reg.path}")
         typer.echo(job.short_id)
+
+
+def checked_details(**given: str | None) -> dict[str, str]:
+    """The time zone, language and next inspection date, each checked (one-line errors)."""
+    import datetime as dt
+
+    from ..errors import UserError
+    from ..i18n import check_language
+
+    out: dict[str, str] = {}
+    for key, value in given.items():
+        if value is None:
+            continue
+        value = value.strip()
+        if key == "language":
+            value = check_language(value)
+        elif key == "timezone" and value:
+            from zoneinfo import ZoneInfo, ZoneInfoNotFoundError
+
+            try:
+                ZoneInfo(value)
+            except (ZoneInfoNotFoundError, ValueError):
+                raise UserError(f"--timezone {value}: not a time zone name (accepted: IANA "
+                                "names such as Europe/London, Europe/Paris, UTC)") from None
+        elif key == "next_inspection" and value:
+            try:
+                value = dt.date.fromisoformat(value).isoformat()
+            except ValueError:
+                raise UserError(f"--next-inspection {value}: not a date (accepted: "
+                                "YYYY-MM-DD, e.g. 2027-12-01)") from None
+        out[key] = value
+    return out
 
 
 def jobs(register: RegisterOpt = None, as_json: JsonOpt = False) -> None:
@@ -88,7 +133,8 @@ def show(
     j = state.job
     c = state.checklist
     echo(f"Job {j.short_id} · {j.details['site']}")
-    for key in ("address", "client", "installer", "installer_contact"):
+    for key in ("address", "client", "client_contact", "installer", "installer_address",
+                "installer_contact", "timezone", "language", "next_inspection"):
         if j.details.get(key):
             echo(f"  {key.replace('_', ' ')}: {j.details[key]}")
     echo(f"  checklist: {c.id} {c.version} (sha256 {j.checklist_sha256[:12]}…)")
@@ -113,6 +159,11 @@ def amend(
     installer: Annotated[str | None, typer.Option()] = None,
     installer_contact: Annotated[str | None, typer.Option()] = None,
     installer_registration: Annotated[str | None, typer.Option()] = None,
+    installer_address: Annotated[str | None, typer.Option()] = None,
+    client_contact: Annotated[str | None, typer.Option()] = None,
+    timezone: Annotated[str | None, typer.Option(help="e.g. Europe/Paris")] = None,
+    language: Annotated[str | None, typer.Option(help="homeowner pages: en or fr")] = None,
+    next_inspection: Annotated[str | None, typer.Option(help="YYYY-MM-DD")] = None,
     register: RegisterOpt = None,
 ) -> None:
     """Change a job's details; each change is kept as an entry."""
@@ -121,7 +172,10 @@ def amend(
     changes = {k: v for k, v in {
         "site": site, "address": address, "client": client, "installer": installer,
         "installer_contact": installer_contact,
-        "installer_registration": installer_registration}.items() if v is not None}
+        "installer_registration": installer_registration,
+        "installer_address": installer_address, "client_contact": client_contact,
+        **checked_details(timezone=timezone, language=language,
+                          next_inspection=next_inspection)}.items() if v is not None}
     if not changes:
         raise UserError("amend: nothing to change (give e.g. --client 'R. Okafor')")
     if "site" in changes and not changes["site"].strip():

@@ -6,7 +6,7 @@ release is migrated on first use; a newer one is refused rather than damaged.
 
 from __future__ import annotations
 
-SCHEMA_VERSION = 2
+SCHEMA_VERSION = 3
 
 # Step n brings a register from version n-1 to n. Never edit a released step:
 # add the next one.
@@ -75,5 +75,15 @@ MIGRATIONS: dict[int, str] = {
     # reading was entered (a second laptop on site, an import). Older entries: ''.
     2: """
     ALTER TABLE entries ADD COLUMN host TEXT NOT NULL DEFAULT '';
+    """,
+    # 3: job details the handover record prints: the installer's postal address, the
+    # client's contact, the site's time zone (times are shown in it), the language of the
+    # homeowner's pages and a next inspection date set for this job. Older jobs: ''.
+    3: """
+    ALTER TABLE jobs ADD COLUMN installer_address TEXT NOT NULL DEFAULT '';
+    ALTER TABLE jobs ADD COLUMN client_contact TEXT NOT NULL DEFAULT '';
+    ALTER TABLE jobs ADD COLUMN timezone TEXT NOT NULL DEFAULT '';
+    ALTER TABLE jobs ADD COLUMN language TEXT NOT NULL DEFAULT '';
+    ALTER TABLE jobs ADD COLUMN next_inspection TEXT NOT NULL DEFAULT '';
     """,
 }

@@ -32,6 +32,11 @@ DETAIL_FIELDS = (
     "installer",
     "installer_contact",
     "installer_registration",
+    "installer_address",
+    "client_contact",
+    "timezone",
+    "language",
+    "next_inspection",
 )
 # Short job ids: unambiguous letters and digits (no 0/O, 1/I/L, U), typed on site.
 _ALPHABET = "23456789ABCDEFGHJKMNPQRSTVWXYZ"
@@ -266,10 +271,10 @@ class Register:
         d = {k: details.get(k) or "" for k in DETAIL_FIELDS}
         with self._transaction():
             cur = self._write(
-                "INSERT INTO jobs (short_id, uuid, created_at, created_by, site, address, client,"
-                " installer, installer_contact, installer_registration, checklist_id,"
+                "INSERT INTO jobs (short_id, uuid, created_at, created_by, "
+                + ", ".join(DETAIL_FIELDS) + ", checklist_id,"
                 " checklist_version, checklist_sha256, checklist_text, checklist_source)"
-                " VALUES (?,?,?,?,?,?,?,?,?,?,?,?,?,?,?)",
+                " VALUES (" + ",".join("?" * (4 + len(DETAIL_FIELDS) + 5)) + ")",
                 (short_id, uuid, created_at, created_by, *(d[k] for k in DETAIL_FIELDS),
                  checklist.checklist.id, checklist.checklist.version, checklist.sha256,
                  checklist.text, checklist.name),

@@ -57,7 +57,14 @@ def make(state: JobState, form: dict[str, Any], sign: bool = False,
     results = state.results()
     generated_at = datetime.now(UTC).isoformat(timespec="seconds").replace("+00:00", "Z")
     built = rec.build(state, results, generated_at)
-    pdf = render(state, results, built.sha256, form, generated_at)
+    signer = None
+    if sign:
+        from .identity import load_identity
+
+        ident = load_identity()
+        signer = {"name": ident.name, "registration": ident.registration or "",
+                  "fingerprint": ident.fingerprint}
+    pdf = render(state, results, built.sha256, form, generated_at, signer=signer)
     pdf = embed_files(pdf, built.payload, built.attachments, state)
     if sign:
         from .signing import sign_pdf
@@ -67,3 +74,30 @@ def make(state: JobState, form: dict[str, Any], sign: bool = False,
                        field_name="InstallerSignature")
     missing = [m["name"] for m in built.data["files"] if not m["attached"]]
     return Made(pdf, built.sha256, built.data["status"], len(built.attachments), missing)
+
+
+def homeowner_extract(state: JobState, form: dict[str, Any], signed: bytes) -> bytes:
+    """The homeowner's pages alone, unsigned, naming the signed record (its embedded record's
+    SHA-256 and the PDF file's SHA-256) as the authority."""
+    import hashlib
+
+    from ..errors import UserError
+    from .pdf import render
+    from .signatures import open_pdf
+    from .verify import declared_hash
+
+    reader, _ = open_pdf(signed)
+    record_sha = declared_hash(reader)
+    if not record_sha:
+        raise UserError("--record: not a record made by commission (no record hash in it)")
+    try:
+        keywords = str(reader.trailer["/Info"].get_object().get("/Keywords", ""))
+    except Exception:  # noqa: BLE001 — damaged document info: cannot tell whose record
+        keywords = ""
+    if f"job:{state.job.uuid}" not in keywords:
+        raise UserError(f"--record: that record is not of job {state.job.short_id}")
+    results = state.results()
+    generated_at = datetime.now(UTC).isoformat(timespec="seconds").replace("+00:00", "Z")
+    extract_of = {"record_sha256": record_sha,
+                  "file_sha256": hashlib.sha256(signed).hexdigest()}
+    return render(state, results, record_sha, form, generated_at, extract_of=extract_of)

@@ -1,27 +1,60 @@
 """Charts for the record, drawn with reportlab's own graphics (no image files).
 
 Each function takes plain numbers and returns a Drawing; the caller decides what
-data is available. Every chart carries its units and, where a sign is shown, the
-sign convention.
+data is available. Every axis is ranged from all the data it shows, with a margin,
+so no mark falls outside its plot; each plot is outlined by a frame in its own
+colour (``FRAME``), which the tests find in the drawn PDF to check that every mark
+lies inside it. A legend names only what is drawn. Text is 8 pt or larger.
 """
 
 from __future__ import annotations
 
+import math
 from collections.abc import Sequence
 
 from reportlab.graphics.charts.barcharts import VerticalBarChart
 from reportlab.graphics.charts.lineplots import LinePlot
-from reportlab.graphics.shapes import Drawing, Line, String
+from reportlab.graphics.shapes import Drawing, Line, Rect, String
 from reportlab.graphics.widgets.markers import makeMarker
 from reportlab.lib import colors
 
 FONT = "CommSans"
+SIZE = 8  # no text below 8 pt, on paper or on screen
 INK = colors.HexColor("#1d2a36")
 BLUE = colors.HexColor("#1f5f99")
 ORANGE = colors.HexColor("#c8641e")
-GREY = colors.HexColor("#8894a0")
+GREY = colors.HexColor("#6f7b87")
+LIGHT = colors.HexColor("#b9c3cc")
 RED = colors.HexColor("#a12b2b")
+FRAME = colors.HexColor("#8a96a3")  # plot frames only: the bounds test looks for it
+AXIS = colors.HexColor("#8a96a2")
+GRID = colors.HexColor("#e3e7eb")
 WIDTH, HEIGHT = 470, 170
+
+
+def nice_range(values: Sequence[float], margin: float = 0.06, floor_zero: bool = False
+               ) -> tuple[float, float, float]:
+    """Axis minimum, maximum and tick step covering ``values`` with a margin each side,
+    on round numbers (1, 2, 2.5 or 5 times a power of ten)."""
+    finite = [float(v) for v in values if math.isfinite(float(v))]
+    lo, hi = (min(finite), max(finite)) if finite else (0.0, 1.0)
+    if floor_zero:
+        lo = min(lo, 0.0)
+    if hi - lo < 1e-12:
+        pad = abs(hi) * 0.1 or 1.0
+        lo, hi = lo - pad, hi + pad
+    span = hi - lo
+    if not (floor_zero and lo == 0.0):
+        lo -= span * margin
+    hi += span * margin
+    raw = (hi - lo) / 5
+    power = 10 ** math.floor(math.log10(raw))
+    step = next(m * power for m in (1, 2, 2.5, 5, 10) if m * power >= raw)
+    return math.floor(lo / step) * step, math.ceil(hi / step) * step, step
+
+
+def _frame(d: Drawing, x: float, y: float, w: float, h: float) -> None:
+    d.add(Rect(x, y, w, h, fillColor=None, strokeColor=FRAME, strokeWidth=0.6))
 
 
 def _plot(x0: float, y0: float, w: float, h: float) -> LinePlot:
@@ -29,98 +62,132 @@ def _plot(x0: float, y0: float, w: float, h: float) -> LinePlot:
     lp.x, lp.y, lp.width, lp.height = x0, y0, w, h
     for axis in (lp.xValueAxis, lp.yValueAxis):
         axis.labels.fontName = FONT
-        axis.labels.fontSize = 7
-        axis.strokeColor = GREY
+        axis.labels.fontSize = SIZE
+        axis.strokeColor = AXIS
     lp.xValueAxis.visibleGrid = False
-    lp.yValueAxis.gridStrokeColor = colors.HexColor("#e3e7eb")
+    lp.yValueAxis.gridStrokeColor = GRID
     lp.yValueAxis.visibleGrid = True
     return lp
 
 
-def _label(d: Drawing, x: float, y: float, text: str, size: float = 7, anchor: str = "start",
-           colour=INK) -> None:
-    d.add(String(x, y, text, fontName=FONT, fontSize=size, fillColor=colour, textAnchor=anchor))
+def _ranges(lp: LinePlot, xs: Sequence[float], ys: Sequence[float],
+            x_exact: bool = False) -> None:
+    if x_exact:
+        lo, hi = min(xs), max(xs)
+        step = nice_range([lo, hi], margin=0)[2]
+        lp.xValueAxis.valueMin, lp.xValueAxis.valueMax = lo, hi
+        lp.xValueAxis.valueSteps = [x for x in _ticks(lo, hi, step)]
+    else:
+        lo, hi, step = nice_range(xs)
+        lp.xValueAxis.valueMin, lp.xValueAxis.valueMax, lp.xValueAxis.valueStep = lo, hi, step
+    lo, hi, step = nice_range(ys)
+    lp.yValueAxis.valueMin, lp.yValueAxis.valueMax, lp.yValueAxis.valueStep = lo, hi, step
+
+
+def _ticks(lo: float, hi: float, step: float) -> list[float]:
+    first = math.ceil(lo / step) * step
+    n = int(math.floor((hi - first) / step + 1e-9)) + 1
+    return [first + k * step for k in range(max(n, 0))]
+
+
+def _label(d: Drawing, x: float, y: float, text: str, size: float = SIZE,
+           anchor: str = "start", colour=INK) -> None:
+    d.add(String(x, y, text, fontName=FONT, fontSize=max(size, SIZE), fillColor=colour,
+                 textAnchor=anchor))
 
 
 def waveform(t_s: Sequence[float], v: Sequence[float], i: Sequence[float],
              note: str) -> Drawing:
-    """A few cycles of voltage and current, on two stacked plots sharing time."""
-    d = Drawing(WIDTH, HEIGHT + 40)
+    """A few cycles of voltage and current, on two stacked plots sharing time; the sign
+    convention (``note``) sits under the plots."""
+    d = Drawing(WIDTH, HEIGHT + 50)
     t_ms = [x * 1000 for x in t_s]
-    top = _plot(45, 122, WIDTH - 60, 68)
+    top = _plot(50, 132, WIDTH - 65, 70)
     top.data = [list(zip(t_ms, v, strict=True))]
     top.lines[0].strokeColor = BLUE
     top.xValueAxis.labels.visible = False
-    bottom = _plot(45, 34, WIDTH - 60, 66)
+    _ranges(top, t_ms, v, x_exact=True)
+    bottom = _plot(50, 44, WIDTH - 65, 70)
     bottom.data = [list(zip(t_ms, i, strict=True))]
     bottom.lines[0].strokeColor = ORANGE
-    d.add(top)
-    d.add(bottom)
-    _label(d, 2, 190, "voltage [V]", colour=BLUE)
-    _label(d, 2, 100, "current [A]", colour=ORANGE)
-    _label(d, WIDTH / 2, 12, "time [ms]", anchor="middle")
-    _label(d, 2, 0, note, size=6.5)
+    _ranges(bottom, t_ms, i, x_exact=True)
+    for plot in (top, bottom):
+        d.add(plot)
+        _frame(d, plot.x, plot.y, plot.width, plot.height)
+    _label(d, 2, 208, "voltage [V]", colour=BLUE)
+    _label(d, 2, 118, "current [A]", colour=ORANGE)
+    _label(d, 50 + (WIDTH - 65) / 2, 20, "time [ms]", anchor="middle")
+    _label(d, 2, 2, note)
     return d
 
 
 def harmonics(orders: Sequence[int], currents: Sequence[float], limits: Sequence[float],
               title: str) -> Drawing:
-    """Harmonic currents (bars) beside the IEC 61000-3-2 Class A limits (grey bars)."""
-    d = Drawing(WIDTH, HEIGHT + 20)
+    """Harmonic currents (bars) beside the Class A limits (light bars)."""
+    d = Drawing(WIDTH, HEIGHT + 30)
     bc = VerticalBarChart()
-    bc.x, bc.y, bc.width, bc.height = 45, 35, WIDTH - 60, HEIGHT - 40
+    bc.x, bc.y, bc.width, bc.height = 50, 35, WIDTH - 65, HEIGHT - 45
     bc.data = [list(currents), list(limits)]
     bc.categoryAxis.categoryNames = [str(h) for h in orders]
     bc.bars[0].fillColor = ORANGE
-    bc.bars[1].fillColor = colors.HexColor("#c9d1d9")
+    bc.bars[1].fillColor = LIGHT
     bc.bars.strokeColor = None
-    bc.valueAxis.valueMin = 0
+    lo, hi, step = nice_range([*currents, *limits], floor_zero=True)
+    bc.valueAxis.valueMin, bc.valueAxis.valueMax, bc.valueAxis.valueStep = 0, hi, step
+    bc.valueAxis.visibleGrid = True
+    bc.valueAxis.gridStrokeColor = GRID
     for axis in (bc.categoryAxis, bc.valueAxis):
         axis.labels.fontName = FONT
-        axis.labels.fontSize = 7
+        axis.labels.fontSize = SIZE
+        axis.strokeColor = AXIS
     d.add(bc)
-    _label(d, 2, HEIGHT + 8, title)
-    _label(d, 2, HEIGHT - 4, "current [A] (orange: this installation; grey: Class A limit)",
-           size=6.5)
-    _label(d, WIDTH / 2, 10, "harmonic order", anchor="middle")
+    _frame(d, bc.x, bc.y, bc.width, bc.height)
+    _label(d, 2, HEIGHT + 18, title)
+    _label(d, 2, HEIGHT + 5, "current [A]")
+    _label(d, 120, HEIGHT + 5, "■ this installation", colour=ORANGE)
+    _label(d, 225, HEIGHT + 5, "■ Class A limit", colour=GREY)
+    _label(d, bc.x + bc.width / 2, 12, "harmonic order", anchor="middle")
     return d
 
 
 def temperature_curve(series: list[tuple[str, Sequence[tuple[float, float]], object, bool]],
                       hlines: list[tuple[str, float, object]], x_label: str,
                       title: str) -> Drawing:
-    """Temperature against time: logged points, fitted/expected lines, horizontal limits."""
-    d = Drawing(WIDTH, HEIGHT + 30)
-    lp = _plot(45, 35, WIDTH - 150, HEIGHT - 35)
-    lp.data = [list(points) for _, points, _, _ in series]
-    ys = [y for _, pts, _, _ in series for _, y in pts] + [y for _, y, _ in hlines]
-    xs = [x for _, pts, _, _ in series for x, _ in pts]
-    lp.yValueAxis.valueMin = min(ys) - 2
-    lp.yValueAxis.valueMax = max(ys) + 2
-    lp.xValueAxis.valueMin = min(xs)
-    lp.xValueAxis.valueMax = max(xs)
-    for n, (_, _, colour, dots) in enumerate(series):
-        lp.lines[n].strokeColor = colour
+    """Temperature against time: logged points (dots), fitted or expected lines, and
+    horizontal limits (dashed, labelled at the right)."""
+    d = Drawing(WIDTH, HEIGHT + 40)
+    drawn = [(label, list(points), colour, dots) for label, points, colour, dots in series
+             if len(points) >= (1 if dots else 2)]
+    lp = _plot(50, 35, WIDTH - 165, HEIGHT - 35)
+    lp.data = [points for _, points, _, _ in drawn]
+    ys = [y for _, pts, _, _ in drawn for _, y in pts] + [y for _, y, _ in hlines]
+    xs = [x for _, pts, _, _ in drawn for x, _ in pts]
+    _ranges(lp, xs, ys)
+    for n, (_, _, colour, dots) in enumerate(drawn):
         if dots:
             lp.lines[n].symbol = makeMarker("Circle", size=1.8, fillColor=colour,
                                             strokeColor=colour)
             lp.lines[n].strokeWidth = 0.01
-            lp.lines[n].strokeColor = colors.transparent
+            lp.lines[n].strokeColor = None
         else:
+            lp.lines[n].strokeColor = colour
             lp.lines[n].strokeWidth = 1.2
+            if colour is GREY:
+                lp.lines[n].strokeDashArray = [4, 2]
     d.add(lp)
+    _frame(d, lp.x, lp.y, lp.width, lp.height)
     span = lp.yValueAxis.valueMax - lp.yValueAxis.valueMin
     for label, y, colour in hlines:
         yy = lp.y + (y - lp.yValueAxis.valueMin) / span * lp.height
         d.add(Line(lp.x, yy, lp.x + lp.width, yy, strokeColor=colour, strokeWidth=0.8,
                    strokeDashArray=[3, 2]))
-        _label(d, lp.x + lp.width + 4, yy - 2, label, size=6.5, colour=colour)
-    legend_x = WIDTH - 62 * len(series)
-    for label, _, colour, dots in series:
-        _label(d, legend_x, HEIGHT + 6, ("• " if dots else "— ") + label, size=6.5,
+        _label(d, lp.x + lp.width + 4, yy - 3, label, colour=colour)
+    legend_y = HEIGHT + 4
+    for label, _, colour, dots in drawn:
+        _label(d, lp.x + lp.width + 4, legend_y, ("• " if dots else "— ") + label,
                colour=colour)
-        legend_x += 62
-    _label(d, 2, HEIGHT + 18, title)
-    _label(d, 2, HEIGHT + 6, "temperature [°C]", size=6.5)
+        legend_y -= 11
+    _label(d, 2, HEIGHT + 28, title)
+    _label(d, 2, HEIGHT + 12, "temperature [°C]")
     _label(d, lp.x + lp.width / 2, 10, x_label, anchor="middle")
     return d

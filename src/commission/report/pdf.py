@@ -1,63 +1,37 @@
-"""Lay out the handover record with reportlab (platypus), driven by a form file.
+"""Lay out the handover record with reportlab (platypus), driven by a form and the checklist.
 
-The form (``forms/*.yaml``) says which sections appear in which order, their
-headings and the caution texts; this module knows how to draw each section.
-Every page carries "page N of M", the job id and the record hash in its footer.
+The form (``forms/*.yaml``, schema in ``report/form.py``) says which sections appear in
+which order, their headings and the caution texts; the checklist's ``report``
+declarations say which items feed the summary, the homeowner's pages, the findings
+and the charts. This module knows how to draw each section and never names an item.
+Every page carries "page N of M", the job id and the record hash in its footer; all
+text is drawn in the bundled DejaVu fonts (embedded) at 8 pt or more.
 """
 
 from __future__ import annotations
 
 import io
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 from xml.sax.saxutils import escape
 
-from ..checks.evaluate import Result, status_reasons
+from ..checks.evaluate import Result
 from ..present import SIGN_CONVENTION, format_value
 from ..walk.state import JobState
+from .form import SECTIONS, load_form  # noqa: F401  (load_form: the CLI's entry point)
 
 FONT, BOLD = "CommSans", "CommSans-Bold"
 FONT_DIR = Path(__file__).resolve().parent / "fonts"
-SECTIONS = ("status", "summary", "instruments", "results", "photos", "charts", "cautions",
-            "homeowner", "signatures")
 _STATUS_WORDS = {"ready": "READY FOR HANDOVER", "not-ready": "NOT READY — DO NOT HAND OVER",
                  "incomplete": "INCOMPLETE — WORK STILL TO DO"}
 _STATUS_COLOURS = {"ready": "#1f6f43", "not-ready": "#a12b2b", "incomplete": "#8a5a00"}
 _VERDICT_COLOURS = {"pass": "#1f6f43", "fail": "#a12b2b", "review": "#8a5a00",
-                    "n/a": "#55606b", "pending": "#55606b"}
-
-
-class FormError(ValueError):
-    pass
-
-
-def load_form(path: Path) -> dict[str, Any]:
-    import yaml
-
-    from ..errors import UserError
-
-    try:
-        data = yaml.safe_load(path.read_text(encoding="utf-8"))
-    except (OSError, UnicodeDecodeError) as exc:
-        raise UserError(f"{path}: cannot read the form ({exc})") from None
-    except yaml.YAMLError as exc:
-        mark = getattr(exc, "problem_mark", None)
-        line = f":{mark.line + 1}" if mark else ""
-        raise UserError(f"{path}{line}: not valid YAML") from None
-    if not isinstance(data, dict) or data.get("format") != "commission-form/1":
-        raise UserError(f"{path}: not a form (needs 'format: commission-form/1')")
-    sections = data.get("sections")
-    if not isinstance(sections, list) or not sections:
-        raise UserError(f"{path}: 'sections' must list some of: {', '.join(SECTIONS)}")
-    unknown = [s for s in sections if s not in SECTIONS]
-    if unknown:
-        raise UserError(f"{path}: unknown section '{unknown[0]}' (accepted: "
-                        f"{', '.join(SECTIONS)})")
-    for key in ("cautions", "supplement"):
-        if key in data and not isinstance(data[key], list | str):
-            raise UserError(f"{path}: '{key}' must be text or a list of texts")
-    return data
+                    "n/a": "#55606b", "pending": "#55606b", "recorded": "#1d2a36"}
+_WEIGHT_WORDS = {"fail": "Fails", "review": "Needs review", "skipped": "Skipped",
+                 "unanswered": "Not answered", "departure": "Departs from the shipped checklist",
+                 "limitation": "Limitation of this inspection"}
+MUTED = "#55606b"
 
 
 def register_fonts() -> None:
@@ -80,20 +54,21 @@ def _styles():
     from reportlab.lib.styles import ParagraphStyle
 
     ink = colors.HexColor("#1d2a36")
-    base = ParagraphStyle("base", fontName=FONT, fontSize=8.5, leading=11, textColor=ink)
+    base = ParagraphStyle("base", fontName=FONT, fontSize=9, leading=11.5, textColor=ink)
     return {
         "base": base,
-        "small": ParagraphStyle("small", parent=base, fontSize=7, leading=9),
-        "cell": ParagraphStyle("cell", parent=base, fontSize=7.2, leading=9),
-        "cellb": ParagraphStyle("cellb", parent=base, fontName=BOLD, fontSize=7.2, leading=9),
+        "small": ParagraphStyle("small", parent=base, fontSize=8, leading=10),
+        "cell": ParagraphStyle("cell", parent=base, fontSize=8, leading=10),
+        "cellb": ParagraphStyle("cellb", parent=base, fontName=BOLD, fontSize=8, leading=10),
         "title": ParagraphStyle("title", parent=base, fontName=BOLD, fontSize=16, leading=20),
         "h1": ParagraphStyle("h1", parent=base, fontName=BOLD, fontSize=12, leading=15,
-                             spaceBefore=10, spaceAfter=5,
+                             spaceBefore=10, spaceAfter=5, keepWithNext=1,
                              textColor=colors.HexColor("#1f5f99")),
         "h2": ParagraphStyle("h2", parent=base, fontName=BOLD, fontSize=9.5, leading=12,
-                             spaceBefore=7, spaceAfter=3),
-        "plain": ParagraphStyle("plain", parent=base, fontSize=10, leading=14, spaceAfter=5),
-        "caution": ParagraphStyle("caution", parent=base, fontSize=8.5, leading=11,
+                             spaceBefore=7, spaceAfter=3, keepWithNext=1),
+        "plain": ParagraphStyle("plain", parent=base, fontSize=10.5, leading=14.5,
+                                spaceAfter=6),
+        "caution": ParagraphStyle("caution", parent=base, fontSize=9, leading=11.5,
                                   leftIndent=8, borderPadding=4,
                                   textColor=colors.HexColor("#7a2020")),
     }
@@ -105,6 +80,10 @@ def _p(text: str, style) -> Any:
     return Paragraph(escape(str(text)).replace("\n", "<br/>"), style)
 
 
+def _muted(text: str) -> str:
+    return f'<font color="{MUTED}">{escape(text)}</font>'
+
+
 @dataclass
 class _Context:
     state: JobState
@@ -113,20 +92,38 @@ class _Context:
     form: dict[str, Any]
     generated_at: str
     st: dict[str, Any]
+    signer: dict[str, str] | None = None  # name, registration, fingerprint of the signer
+    extract_of: dict[str, str] | None = None  # homeowner extract: the signed record's hashes
+    _by_id: dict[str, Result] = field(default_factory=dict)
 
     def __post_init__(self) -> None:
         self._by_id = {r.item.id: r for r in self.results}
 
+    @property
+    def tz(self) -> str:
+        return self.state.job.details.get("timezone") or "UTC"
+
+    def when(self, iso: str) -> str:
+        from .findings import local_time
+
+        return local_time(iso, self.tz)
+
     def result(self, item_id: str) -> Result | None:
         return self._by_id.get(item_id)
 
-    def value(self, item_id: str, default: str = "—") -> str:
-        r = self.result(item_id)
-        if r is None or r.entry is None:
-            return default
+    def answer(self, r: Result) -> str:
+        if r.entry is None:
+            return ""
         if r.entry.action != "answer":
             return f"{r.entry.action}: {r.entry.raw}"
         return format_value(r.item, r.entry.value)
+
+    def role(self, name: str) -> str | None:
+        """The answer of the first answered item declaring a homeowner role."""
+        for r in self.results:
+            if r.item.report.homeowner == name and r.answered and r.applicable:
+                return self.answer(r)
+        return None
 
     def heading(self, key: str, default: str) -> str:
         return (self.form.get("headings") or {}).get(key, default)
@@ -136,7 +133,8 @@ def _table(rows, widths, header=True, zebra=True):
     from reportlab.lib import colors
     from reportlab.platypus import Table, TableStyle
 
-    t = Table(rows, colWidths=widths, repeatRows=1 if header else 0)
+    # splitInRow=0 (reportlab's default): a row is never split across two pages
+    t = Table(rows, colWidths=widths, repeatRows=1 if header else 0, splitInRow=0)
     style = [
         ("VALIGN", (0, 0), (-1, -1), "TOP"),
         ("LEFTPADDING", (0, 0), (-1, -1), 3),
@@ -154,12 +152,16 @@ def _table(rows, widths, header=True, zebra=True):
     return t
 
 
-# -- sections ----------------------------------------------------------------------
+# -- page 1 ------------------------------------------------------------------------
 
 def _status(c: _Context) -> list:
     from reportlab.lib import colors
-    from reportlab.platypus import Spacer, Table, TableStyle
+    from reportlab.platypus import Paragraph, Spacer, Table, TableStyle
 
+    from .findings import findings, next_inspection
+
+    job = c.state.job
+    checklist = c.state.checklist
     status = c.state.status(c.results)
     box = Table([[_p(_STATUS_WORDS[status], c.st["title"])]], colWidths=[480])
     box.setStyle(TableStyle([
@@ -167,46 +169,116 @@ def _status(c: _Context) -> list:
         ("BACKGROUND", (0, 0), (-1, -1), colors.HexColor("#fbfbf7")),
         ("TOPPADDING", (0, 0), (-1, -1), 8), ("BOTTOMPADDING", (0, 0), (-1, -1), 8),
     ]))
-    out = [box, Spacer(1, 4), _p(f"Job status: {status}", c.st["base"])]
-    reasons = status_reasons(c.results)
-    if reasons:
-        out.append(_p("What must still be done before handover:", c.st["h2"]))
-        for reason in reasons:
-            out.append(_p(f"• {reason}", c.st["base"]))
+    found = findings(c.results, checklist, job.checklist_sha256)
+    counts = {w: sum(1 for f in found if f.weight == w) for w in _WEIGHT_WORDS}
+    if status == "ready":
+        line = "Every critical item passes."
+        noted = [f"{_WEIGHT_WORDS[w].lower()}: {n}" for w, n in counts.items()
+                 if n and w in ("fail", "review", "skipped")]
+        if noted:
+            line += f" Findings on other items ({'; '.join(noted)}) are listed below."
+    elif status == "not-ready":
+        line = "A critical item fails: do not hand over until it is put right."
     else:
-        out.append(_p("Every critical item passes and nothing is left unanswered.",
+        line = "Work remains before handover: see the findings below."
+    out = [box, Spacer(1, 4),
+           _p(f"Job status: {status}. {line}", c.st["base"]),
+           _p(f"Job {job.short_id} · {job.details.get('site', '')} · record made "
+              f"{c.when(c.generated_at)}", c.st["small"])]
+
+    out.append(_p("Findings, by weight", c.st["h2"]))
+    if not found:
+        out.append(_p("No failures, reviews, skipped items, departures or limitations.",
                       c.st["base"]))
+    else:
+        rows = [[_p(h, c.st["cellb"]) for h in ("Finding", "Item", "Reason")]]
+        for f in found:
+            item = (f"{escape(f.item)}<br/>{_muted(f.item_id)}" if f.item_id
+                    else escape(f.item))
+            rows.append([_p(_WEIGHT_WORDS[f.weight], c.st["cellb"]),
+                         Paragraph(item, c.st["cell"]), _p(f.reason, c.st["cell"])])
+        out.append(_table(rows, [82, 170, 228]))
+    if not any(f.weight == "limitation" for f in found):
+        out.append(_p("Limitations of this inspection: none recorded.", c.st["small"]))
+
+    d = job.details
+    installer = d.get("installer") or "the installer"
+    reg = f" (registration {d['installer_registration']})" if d.get(
+        "installer_registration") else ""
+    out.append(_p("Declaration", c.st["h2"]))
+    out.append(_p(
+        f"I, {installer}{reg}, commissioned the installation at {d.get('site', '')} and "
+        f"recorded every reading and answer in this record, following checklist "
+        f"{checklist.id} {checklist.version} ({checklist.title}) under {checklist.rules.name}. "
+        "The verdicts are derived from those readings by the rules and sources printed "
+        "beside each item. Verification: an electrician reviews this record and "
+        "countersigns it digitally or in the signature table; until then it is the "
+        "installer's own statement.", c.st["base"]))
+
+    due = next_inspection(d, checklist, c.generated_at)
+    out.append(_p("Next inspection", c.st["h2"]))
+    if due:
+        out.append(_p(f"Next inspection or service due: {due[0]}", c.st["cellb"]))
+        out.append(_p(f"Source: {due[1]}", c.st["small"]))
+    else:
+        out.append(_p("Next inspection or service due: not set (no interval in the checklist; "
+                      "set one with 'amend --next-inspection DATE').", c.st["base"]))
+
+    out.append(_p("Signed by", c.st["h2"]))
+    out.append(_signer_block(c))
     return out
+
+
+def _group(hexdigest: str) -> str:
+    return " ".join(hexdigest[k:k + 4] for k in range(0, len(hexdigest), 4))
+
+
+def _signer_block(c: _Context):
+    d = c.state.job.details
+    rows = [[_p(h, c.st["cellb"]) for h in ("Role", "Name", "Certificate (SHA-256)",
+                                             "Signed")]]
+    if c.signer:
+        rows.append([_p("Installer", c.st["cell"]),
+                     _p(f"{c.signer['name']}\n{c.signer.get('registration') or ''}".strip(),
+                        c.st["cell"]),
+                     _p(_group(c.signer["fingerprint"]), c.st["cell"]),
+                     _p(f"digitally (PAdES), {c.when(c.generated_at)}; the signature "
+                        "panel shows the signing time", c.st["cell"])])
+    else:
+        rows.append([_p("Installer", c.st["cell"]), _p(d.get("installer", ""), c.st["cell"]),
+                     _p("not signed digitally", c.st["cell"]),
+                     _p("sign by hand in the signature table", c.st["cell"])])
+    rows.append([_p("Reviewer (electrician)", c.st["cell"]), _p("", c.st["cell"]),
+                 _p("", c.st["cell"]),
+                 _p("countersigns digitally, or by hand in the signature table",
+                    c.st["cell"])])
+    return _table(rows, [80, 110, 170, 120], zebra=False)
 
 
 def _summary(c: _Context) -> list:
     job = c.state.job
     d = job.details
-    v = c.value
-    rows = [
-        ("Site", d.get("site")), ("Address", d.get("address")), ("Client", d.get("client")),
-        ("Installer", d.get("installer")), ("Installer contact", d.get("installer_contact")),
-        ("Installer registration", d.get("installer_registration")),
-        ("PV array", v("install.pv.size")), ("Inverter", v("install.inverter")),
-        ("Diverter", f"{v('install.diverter.model')}, firmware {v('install.diverter.firmware')}"),
-        ("Diverter settings", v("install.diverter.settings")),
-        ("Control of the element", v("install.diverter.control")),
-        ("Element", f"{v('element.rated_power')} at {v('element.rated_voltage')}, cold "
-                    f"resistance {v('element.cold_resistance')}"),
-        ("Cylinder", f"{v('install.cylinder.volume')}, element {v('install.element.position')}"
-                     f", sensor {v('install.sensor.position')}"),
-        ("Earthing system", v("supply.earthing")),
-        ("Circuit breaker", f"type {v('protection.breaker.curve')} "
-                            f"{v('protection.breaker.rating')}; cable Iz "
-                            f"{v('protection.cable.iz')}"),
-        ("RCD", f"type {v('protection.rcd.type')}, {v('protection.rcd.delay')}, IΔn "
-                f"{v('protection.rcd.idn')}"),
+    rows: list[tuple[str, str]] = [
+        ("Site", d.get("site", "")), ("Address", d.get("address", "")),
+        ("Client", d.get("client", "")), ("Client contact", d.get("client_contact", "")),
+        ("Installer", d.get("installer", "")),
+        ("Installer address", d.get("installer_address", "")),
+        ("Installer contact", d.get("installer_contact", "")),
+        ("Installer registration", d.get("installer_registration", "")),
+    ]
+    for r in c.results:
+        label = r.item.report.summary
+        if label and r.applicable:
+            rows.append((label, c.answer(r) if r.answered else "—"))
+    rows += [
         ("Checklist", f"{job.checklist_id} {job.checklist_version} "
                       f"(SHA-256 {job.checklist_sha256[:16]}…)"),
-        ("Job", f"{job.short_id} ({job.uuid}), started {job.created_at[:10]}"),
-        ("Record made", c.generated_at),
+        ("Job", f"{job.short_id} ({job.uuid}), started {c.when(job.created_at)}"),
+        ("Times shown in", c.tz),
+        ("Record made", c.when(c.generated_at)),
     ]
-    table = [[_p(k, c.st["cellb"]), _p(val or "—", c.st["cell"])] for k, val in rows]
+    table = [[_p(k, c.st["cellb"]), _p(val or "—", c.st["cell"])] for k, val in rows
+             if val or k in ("Site", "Installer")]
     return [_p(c.heading("summary", "Site and installation"), c.st["h1"]),
             _table(table, [130, 350], header=False)]
 
@@ -226,82 +298,132 @@ def _instruments(c: _Context) -> list:
 
 
 def _verdict_cell(verdict: str, st) -> Any:
-    colour = _VERDICT_COLOURS.get(verdict, "#1d2a36")
     from reportlab.platypus import Paragraph
 
+    colour = _VERDICT_COLOURS.get(verdict, "#1d2a36")
     return Paragraph(f'<font color="{colour}"><b>{escape(verdict)}</b></font>', st["cell"])
 
 
+def _file_text(value: dict[str, Any]) -> str:
+    return f"{value.get('name', '')}\n{_size(value.get('bytes', 0))}"
+
+
+def _size(n: int) -> str:
+    for unit, scale in (("MB", 1e6), ("kB", 1e3)):
+        if n >= scale:
+            return f"{n / scale:.1f} {unit}"
+    return f"{n} B"
+
+
 def _results(c: _Context) -> list:
+    from reportlab.platypus import Paragraph
+
     out = [_p(c.heading("results", "Every item: reading, expectation, verdict"), c.st["h1"]),
-           _p(SIGN_CONVENTION + " ! marks a critical item: it must pass before handover.",
+           _p(SIGN_CONVENTION + " ! marks a critical item: it must pass before handover. "
+              "'Figure' is what the check derived or predicted from the answer.",
               c.st["small"])]
+    widths = [118, 72, 48, 52, 40, 150]
     section = None
     rows: list = []
+    section_time = ""
 
     def flush():
         if len(rows) > 1:
-            out.append(_table(list(rows), [112, 84, 62, 36, 186]))
+            out.append(_table(list(rows), widths))
 
     for r in c.results:
         if r.section != section:
             flush()
             section = r.section
-            out.append(_p(r.section_title, c.st["h2"]))
+            times = [c.when(x.entry.at) for x in c.results
+                     if x.section == section and x.entry is not None]
+            section_time = max(set(times), key=times.count) if times else ""
+            title = r.section_title + (f" — recorded {section_time}" if section_time else "")
+            out.append(_p(title, c.st["h2"]))
             rows = [[_p(h, c.st["cellb"]) for h in
-                     ("Item", "Measured", "Expected", "Verdict", "Reason · source")]]
+                     ("Item", "Answer", "Figure", "Expected", "Verdict", "Reason · source")]]
         mark = "! " if r.item.critical else ""
-        item_text = f"{mark}{r.item.id}\n{r.item.prompt}"
-        value = c.value(r.item.id, default="")
-        measured = value
+        item_cell = Paragraph(f"{escape(mark + r.item.prompt)}<br/>{_muted(r.item.id)}",
+                              c.st["cell"])
+        if r.answered and isinstance(r.entry.value, dict) and "sha256" in r.entry.value:
+            answer = _file_text(r.entry.value)
+        else:
+            answer = c.answer(r)
+        figure = ""
         if r.measured is not None and r.measured.unit:
-            figure = r.measured.text()
-            if not value:
-                measured = figure
-            elif figure != value:
-                measured = f"{value}\n→ {figure}"
+            text = r.measured.text()
+            if text != answer:
+                figure = text
         if r.entry is not None and r.entry.instrument_id:
             inst = c.state.instruments.get(r.entry.instrument_id)
             if inst:
-                measured += f"\n({inst.serial})"
-        if r.entry is not None:
-            measured += f"\n{r.entry.at[:16].replace('T', ' ')}Z"
+                answer += f"\n({inst.serial})"
+        if r.entry is not None and c.when(r.entry.at) != section_time:
+            answer += f"\n{c.when(r.entry.at)}"
         expected = r.expected.text() if r.expected else ""
         reason = f"{r.reason}\nSource: {r.source}"
         if len(r.history) > 1:
-            prior = "; ".join(f"{h.raw} ({h.action}, {h.at[:16].replace('T', ' ')}Z)"
-                              for h in r.history[:-1])
+            prior = "; ".join(f"{h.raw} ({h.action}, {c.when(h.at)})" for h in r.history[:-1])
             reason += f"\nCorrected; replaced: {prior}"
-        rows.append([_p(item_text, c.st["cell"]), _p(measured, c.st["cell"]),
+        rows.append([item_cell, _p(answer, c.st["cell"]), _p(figure, c.st["cell"]),
                      _p(expected, c.st["cell"]), _verdict_cell(r.verdict, c.st),
                      _p(reason, c.st["cell"])])
     flush()
     return out
 
 
-def _photos(c: _Context) -> list:
-    from reportlab.platypus import Image, KeepTogether
+def _recorded_files(c: _Context) -> list[tuple[Result, dict[str, Any]]]:
+    return [(r, r.entry.value) for r in c.results
+            if r.answered and isinstance(r.entry.value, dict) and "sha256" in r.entry.value]
 
-    out = [_p(c.heading("photos", "Photos"), c.st["h1"])]
-    n = 0
-    for r in c.results:
-        if r.item.kind != "photo" or r.entry is None or r.entry.action != "answer":
+
+def _files(c: _Context) -> list:
+    found = _recorded_files(c)
+    if not found:
+        return []
+    from .record import ATTACH_LIMIT
+
+    rows = [[_p(h, c.st["cellb"]) for h in ("File", "Size", "SHA-256", "Item")]]
+    for r, value in found:
+        attached = value.get("bytes", 0) <= ATTACH_LIMIT
+        rows.append([_p(value.get("name", ""), c.st["cell"]),
+                     _p(_size(value.get("bytes", 0)) + ("" if attached else "\nnot attached"),
+                        c.st["cell"]),
+                     _p(_group(value["sha256"]), c.st["cell"]),
+                     _p(r.item.prompt, c.st["cell"])])
+    note = ("Each file travels inside this PDF as an attachment named by its SHA-256 (never by "
+            "the name it had), so opening one cannot overwrite a file of yours.")
+    return [_p(c.heading("files", "Recorded files"), c.st["h1"]), _p(note, c.st["small"]),
+            _table(rows, [120, 50, 170, 140])]
+
+
+def _photos(c: _Context) -> list:
+    from reportlab.platypus import Image, Table, TableStyle
+
+    cells = []
+    for r, value in _recorded_files(c):
+        if r.item.kind != "photo":
             continue
-        path = c.state.files.path(r.entry.value["sha256"])
+        path = c.state.files.path(value["sha256"])
         if path is None:
             continue
+        caption = _p(f"{r.item.prompt} — {value['name']}", c.st["small"])
         try:
             img = Image(str(path))
         except Exception:  # noqa: BLE001 — a photo reportlab cannot read is listed, not fatal
-            out.append(_p(f"{r.item.prompt}: {r.entry.value['name']} (cannot be shown)",
-                          c.st["base"]))
+            cells.append([caption, _p("(cannot be shown)", c.st["small"])])
             continue
-        scale = min(220 / img.imageWidth, 160 / img.imageHeight)
+        scale = min(225 / img.imageWidth, 170 / img.imageHeight)
         img.drawWidth, img.drawHeight = img.imageWidth * scale, img.imageHeight * scale
-        out.append(KeepTogether([_p(f"{r.item.prompt} — {r.entry.value['name']}, SHA-256 "
-                                    f"{r.entry.value['sha256'][:16]}…", c.st["small"]), img]))
-        n += 1
-    return out if n else []
+        cells.append([caption, img])
+    if not cells:
+        return []
+    grid = [cells[k:k + 2] + ([[]] if len(cells[k:k + 2]) == 1 else [])
+            for k in range(0, len(cells), 2)]
+    table = Table(grid, colWidths=[240, 240], splitInRow=0)
+    table.setStyle(TableStyle([("VALIGN", (0, 0), (-1, -1), "TOP"),
+                               ("BOTTOMPADDING", (0, 0), (-1, -1), 8)]))
+    return [_p(c.heading("photos", "Photos"), c.st["h1"]), table]
 
 
 def _cautions(c: _Context) -> list:
@@ -322,36 +444,12 @@ def _cautions(c: _Context) -> list:
 def _homeowner(c: _Context) -> list:
     from reportlab.platypus import PageBreak
 
-    d = c.state.job.details
-    v = c.value
-    contact = d.get("installer_contact") or "the installer"
-    who = d.get("installer") or "your installer"
-    lines = [
-        f"What was fitted: a solar diverter ({v('install.diverter.model')}) that sends spare "
-        f"solar power to the {v('element.rated_power')} immersion element in your "
-        f"{v('install.cylinder.volume')} hot-water cylinder, instead of exporting it.",
-        f"Where the isolator is: {v('handover.isolator')}. Switch it off before anyone works on "
-        "the diverter or the cylinder.",
-        "If the RCD trips: switch off the diverter's isolator, then reset the RCD. If it trips "
-        f"again, leave it off and call {who} on {contact}.",
-        "If the water is not hot: on a dull day the sun may not heat it; the boost (timer) "
-        f"setting is: {v('install.diverter.settings')}. If it is still cold after a boost, "
-        "check the isolator and call the installer.",
-        "Test the RCD: press its test button every few months (common practice; follow the "
-        "device maker's instructions). It should switch off at once; switch it back on.",
-        "How the store reaches 60 °C: "
-        f"{v('water.regime')}. Water stored at 60 °C or more keeps bacteria such as "
-        "Legionella from growing.",
-        "Very hot water scalds: water above about 50 °C can burn quickly, especially children "
-        "and older people. Check taps before bathing.",
-        f"Whom to call: {who}, {contact}.",
-    ]
-    from reportlab.platypus import Paragraph
+    from .homeowner import homeowner_flowables
 
-    out = [PageBreak(), _p(c.heading("homeowner", "For the homeowner"), c.st["h1"])]
-    for line in lines:
-        lead, _, rest = line.partition(": ")
-        out.append(Paragraph(f"<b>{escape(lead)}:</b> {escape(rest)}", c.st["plain"]))
+    out = [] if c.extract_of else [PageBreak()]
+    out += homeowner_flowables(c)
+    if not c.extract_of and c.form["sections"][-1] != "homeowner":
+        out.append(PageBreak())  # the homeowner's pages stand alone, printable apart
     return out
 
 
@@ -360,8 +458,8 @@ def _signatures(c: _Context) -> list:
 
     d = c.state.job.details
     blocks = [("Installer", d.get("installer", ""), d.get("installer_registration", "")),
-              ("Reviewer (electrician)", "", ""), ("Homeowner acknowledgement", d.get("client", ""),
-                                                   "")]
+              ("Reviewer (electrician)", "", ""),
+              ("Homeowner acknowledgement", d.get("client", ""), "")]
     rows = [[_p(h, c.st["cellb"]) for h in ("Role", "Name", "Registration", "Date",
                                              "Signature")]]
     for role, name, reg in blocks:
@@ -372,7 +470,7 @@ def _signatures(c: _Context) -> list:
     table = _table(rows, [110, 120, 80, 60, 110], zebra=False)
     table._argH = [None] + [34] * (len(rows) - 1)  # room to sign by hand
     return [KeepTogether([_p(c.heading("signatures", "Signatures"), c.st["h1"]),
-                          table, Spacer(1, 4),
+                          _signer_block(c), Spacer(1, 6), table, Spacer(1, 4),
                           _p(note, c.st["small"])])]
 
 
@@ -386,12 +484,16 @@ def _charts(c: _Context) -> list:
 
 
 _BUILDERS = {"status": _status, "summary": _summary, "instruments": _instruments,
-             "results": _results, "photos": _photos, "charts": _charts,
+             "results": _results, "files": _files, "photos": _photos, "charts": _charts,
              "cautions": _cautions, "homeowner": _homeowner, "signatures": _signatures}
+assert set(_BUILDERS) == set(SECTIONS)
 
 
 def render(state: JobState, results: list[Result], record_sha: str, form: dict[str, Any],
-           generated_at: str) -> bytes:
+           generated_at: str, signer: dict[str, str] | None = None,
+           extract_of: dict[str, str] | None = None) -> bytes:
+    """The record's pages; with ``extract_of`` (the signed record's hashes) only the
+    homeowner's pages, as an unsigned extract naming that record as the authority."""
     from reportlab.lib.pagesizes import A4
     from reportlab.lib.units import mm
     from reportlab.pdfgen import canvas
@@ -399,12 +501,19 @@ def render(state: JobState, results: list[Result], record_sha: str, form: dict[s
 
     register_fonts()
     st = _styles()
-    c = _Context(state, results, record_sha, form, generated_at, st)
+    c = _Context(state, results, record_sha, form, generated_at, st, signer, extract_of)
     job = state.job
-    footer_left = f"Job {job.short_id} · record SHA-256 {record_sha}"
+    title = form.get("title", "Commissioning record")
+    if extract_of:
+        footer_left = (f"Job {job.short_id} · extract, not signed · signed record SHA-256 "
+                       f"{extract_of['record_sha256']}")
+    else:
+        footer_left = f"Job {job.short_id} · record SHA-256 {record_sha}"
 
     class NumberedCanvas(canvas.Canvas):
         def __init__(self, *args, **kwargs):
+            kwargs.setdefault("initialFontName", FONT)  # no base-14 font is ever referenced
+            kwargs.setdefault("initialFontSize", 9)
             super().__init__(*args, **kwargs)
             self._pages: list[dict] = []
 
@@ -416,16 +525,14 @@ def render(state: JobState, results: list[Result], record_sha: str, form: dict[s
             total = len(self._pages)
             for page in self._pages:
                 self.__dict__.update(page)
-                self.setFont(FONT, 6.5)
+                self.setFont(FONT, 8)
                 self.setFillColorRGB(0.3, 0.35, 0.4)
-                self.drawString(15 * mm, 9 * mm, footer_left)
-                self.drawRightString(A4[0] - 15 * mm, 9 * mm,
+                self.drawString(12 * mm, 8 * mm, footer_left)
+                self.drawRightString(A4[0] - 12 * mm, 8 * mm,
                                      f"page {self._pageNumber} of {total}")
-                self.setFont(FONT, 7)
-                header = (f"{form.get('title', 'Commissioning record')} · "
-                          f"{job.details.get('site', '')}")
-                if len(header) > 110:
-                    header = header[:109] + "…"
+                header = f"{title} · {job.details.get('site', '')}"
+                if len(header) > 100:
+                    header = header[:99] + "…"
                 self.drawString(15 * mm, A4[1] - 10 * mm, header)
                 super().showPage()
             super().save()
@@ -433,13 +540,20 @@ def render(state: JobState, results: list[Result], record_sha: str, form: dict[s
     buf = io.BytesIO()
     doc = SimpleDocTemplate(
         buf, pagesize=A4, leftMargin=15 * mm, rightMargin=15 * mm, topMargin=16 * mm,
-        bottomMargin=16 * mm, title=f"{form.get('title', 'Commissioning record')} — "
-        f"{job.details.get('site', '')}", author=job.details.get("installer", ""),
+        bottomMargin=16 * mm, title=f"{title} — {job.details.get('site', '')}",
+        author=job.details.get("installer", ""),
         subject=f"commission record sha256:{record_sha}",
         creator="commission", keywords=[f"record-sha256:{record_sha}", f"job:{job.uuid}"],
+        lang=(job.details.get("language") or "en") if extract_of else "en",
     )
-    story = [_p(form.get("title", "Commissioning record"), st["title"])]
-    for key in form["sections"]:
-        story += _BUILDERS[key](c)
+    if extract_of:
+        from .homeowner import extract_heading
+
+        story = extract_heading(c)
+        story += _homeowner(c)
+    else:
+        story = [_p(title, st["title"])]
+        for key in form["sections"]:
+            story += _BUILDERS[key](c)
     doc.build(story, canvasmaker=NumberedCanvas)
     return buf.getvalue()

@@ -89,6 +89,13 @@ def build(state: JobState, results: list[Result], generated_at: str) -> BuiltRec
         "verdicts": verdict_snapshot(results),
         "status": state.status(results),
     }
+    # Fields for later visits (issue 11); the job's own details (time zone, language,
+    # next inspection set per job) travel in "job" above.
+    from .findings import next_inspection
+
+    due = next_inspection(job.details, state.checklist, generated_at)
+    data["next_inspection"] = {"date": due[0], "source": due[1]} if due else None
+    data["language"] = job.details.get("language") or "en"
     payload = canonical(data)
     attach = [m for m in data["files"] if m["attached"]]
     return BuiltRecord(data, payload, record_hash(payload), attach)
