@@ -27,7 +27,7 @@ GREY = colors.HexColor("#6f7b87")
 LIGHT = colors.HexColor("#b9c3cc")
 RED = colors.HexColor("#a12b2b")
 FRAME = colors.HexColor("#8a96a3")  # plot frames only: the bounds test looks for it
-AXIS = colors.HexColor("#8a96a2")
+AXIS = colors.HexColor("#a7b1bb")
 GRID = colors.HexColor("#e3e7eb")
 WIDTH, HEIGHT = 470, 170
 
@@ -114,8 +114,8 @@ def waveform(t_s: Sequence[float], v: Sequence[float], i: Sequence[float],
     for plot in (top, bottom):
         d.add(plot)
         _frame(d, plot.x, plot.y, plot.width, plot.height)
-    _label(d, 2, 208, "voltage [V]", colour=BLUE)
-    _label(d, 2, 118, "current [A]", colour=ORANGE)
+    _label(d, top.x, top.y + top.height + 4, "voltage [V]", colour=BLUE)
+    _label(d, bottom.x, bottom.y + bottom.height + 5, "current [A]", colour=ORANGE)
     _label(d, 50 + (WIDTH - 65) / 2, 20, "time [ms]", anchor="middle")
     _label(d, 2, 2, note)
     return d

@@ -316,60 +316,75 @@ def _size(n: int) -> str:
 
 
 def _results(c: _Context) -> list:
-    from reportlab.platypus import Paragraph
+    from reportlab.lib import colors
+    from reportlab.platypus import Table, TableStyle
 
     out = [_p(c.heading("results", "Every item: reading, expectation, verdict"), c.st["h1"]),
            _p(SIGN_CONVENTION + " ! marks a critical item: it must pass before handover. "
               "'Figure' is what the check derived or predicted from the answer.",
               c.st["small"])]
     widths = [118, 72, 48, 52, 40, 150]
-    section = None
-    rows: list = []
-    section_time = ""
-
-    def flush():
-        if len(rows) > 1:
-            out.append(_table(list(rows), widths))
-
+    sections: dict[str, list[Result]] = {}
     for r in c.results:
-        if r.section != section:
-            flush()
-            section = r.section
-            times = [c.when(x.entry.at) for x in c.results
-                     if x.section == section and x.entry is not None]
-            section_time = max(set(times), key=times.count) if times else ""
-            title = r.section_title + (f" — recorded {section_time}" if section_time else "")
-            out.append(_p(title, c.st["h2"]))
-            rows = [[_p(h, c.st["cellb"]) for h in
-                     ("Item", "Answer", "Figure", "Expected", "Verdict", "Reason · source")]]
-        mark = "! " if r.item.critical else ""
-        item_cell = Paragraph(f"{escape(mark + r.item.prompt)}<br/>{_muted(r.item.id)}",
-                              c.st["cell"])
-        if r.answered and isinstance(r.entry.value, dict) and "sha256" in r.entry.value:
-            answer = _file_text(r.entry.value)
-        else:
-            answer = c.answer(r)
-        figure = ""
-        if r.measured is not None and r.measured.unit:
-            text = r.measured.text()
-            if text != answer:
-                figure = text
-        if r.entry is not None and r.entry.instrument_id:
-            inst = c.state.instruments.get(r.entry.instrument_id)
-            if inst:
-                answer += f"\n({inst.serial})"
-        if r.entry is not None and c.when(r.entry.at) != section_time:
-            answer += f"\n{c.when(r.entry.at)}"
-        expected = r.expected.text() if r.expected else ""
-        reason = f"{r.reason}\nSource: {r.source}"
-        if len(r.history) > 1:
-            prior = "; ".join(f"{h.raw} ({h.action}, {c.when(h.at)})" for h in r.history[:-1])
-            reason += f"\nCorrected; replaced: {prior}"
-        rows.append([item_cell, _p(answer, c.st["cell"]), _p(figure, c.st["cell"]),
-                     _p(expected, c.st["cell"]), _verdict_cell(r.verdict, c.st),
-                     _p(reason, c.st["cell"])])
-    flush()
+        sections.setdefault(r.section, []).append(r)
+    for members in sections.values():
+        times = [c.when(x.entry.at) for x in members if x.entry is not None]
+        section_time = max(set(times), key=times.count) if times else ""
+        title = members[0].section_title + (f" — recorded {section_time}"
+                                            if section_time else "")
+        # The section's title and the column heads are the table's first two rows, repeated
+        # on every page the section runs onto; rows are never split across pages.
+        rows: list = [[_p(title, c.st["h2"])] + [""] * 5,
+                      [_p(h, c.st["cellb"]) for h in
+                       ("Item", "Answer", "Figure", "Expected", "Verdict", "Reason · source")]]
+        for r in members:
+            rows.append(_result_row(c, r, section_time))
+        table = Table(rows, colWidths=widths, repeatRows=2, splitInRow=0)
+        style = [
+            ("SPAN", (0, 0), (-1, 0)),
+            ("VALIGN", (0, 0), (-1, -1), "TOP"),
+            ("LEFTPADDING", (0, 0), (-1, -1), 3), ("RIGHTPADDING", (0, 0), (-1, -1), 3),
+            ("TOPPADDING", (0, 0), (-1, -1), 2), ("BOTTOMPADDING", (0, 0), (-1, -1), 2),
+            ("TOPPADDING", (0, 0), (-1, 0), 8),
+            ("LINEBELOW", (0, 1), (-1, -1), 0.25, colors.HexColor("#d5dbe1")),
+            ("BACKGROUND", (0, 1), (-1, 1), colors.HexColor("#e8eef4")),
+        ]
+        for n in range(3, len(rows), 2):
+            style.append(("BACKGROUND", (0, n), (-1, n), colors.HexColor("#f7f9fb")))
+        table.setStyle(TableStyle(style))
+        out.append(table)
     return out
+
+
+def _result_row(c: _Context, r: Result, section_time: str) -> list:
+    from reportlab.platypus import Paragraph
+
+    mark = "! " if r.item.critical else ""
+    item_cell = Paragraph(f"{escape(mark + r.item.prompt)}<br/>{_muted(r.item.id)}",
+                          c.st["cell"])
+    if r.answered and isinstance(r.entry.value, dict) and "sha256" in r.entry.value:
+        answer = _file_text(r.entry.value)
+    else:
+        answer = c.answer(r)
+    figure = ""
+    if r.measured is not None and r.measured.unit:
+        text = r.measured.text()
+        if text != answer:
+            figure = text
+    if r.entry is not None and r.entry.instrument_id:
+        inst = c.state.instruments.get(r.entry.instrument_id)
+        if inst:
+            answer += f"\n({inst.serial})"
+    if r.entry is not None and c.when(r.entry.at) != section_time:
+        answer += f"\n{c.when(r.entry.at)}"
+    expected = r.expected.text() if r.expected else ""
+    reason = f"{r.reason}\nSource: {r.source}"
+    if len(r.history) > 1:
+        prior = "; ".join(f"{h.raw} ({h.action}, {c.when(h.at)})" for h in r.history[:-1])
+        reason += f"\nCorrected; replaced: {prior}"
+    return [item_cell, _p(answer, c.st["cell"]), _p(figure, c.st["cell"]),
+            _p(expected, c.st["cell"]), _verdict_cell(r.verdict, c.st),
+            _p(reason, c.st["cell"])]
 
 
 def _recorded_files(c: _Context) -> list[tuple[Result, dict[str, Any]]]:
