@@ -9,6 +9,7 @@ from pathlib import Path
 from typing import Any
 
 from ..walk.state import JobState
+from . import archival
 from . import record as rec
 
 
@@ -23,8 +24,11 @@ class Made:
 
 def embed_files(pdf: bytes, record_payload: bytes, attachments: list[dict[str, Any]],
                 state: JobState) -> bytes:
-    """Attach the record JSON and the files (named by SHA-256) in one incremental update."""
-    from pyhanko.pdf_utils import embed
+    """Attach the record JSON and the files (named by SHA-256) in one incremental update,
+    and make the file PDF/A-3b: XMP metadata (pdfaid part 3, conformance B) in step with the
+    document info, an sRGB output intent, and every attachment an associated file (/AF):
+    the record with relationship /Data, the recorded files with /Source."""
+    from pyhanko.pdf_utils import embed, generic
     from pyhanko.pdf_utils.incremental_writer import IncrementalPdfFileWriter
 
     writer = IncrementalPdfFileWriter(io.BytesIO(pdf))
@@ -33,8 +37,9 @@ def embed_files(pdf: bytes, record_payload: bytes, attachments: list[dict[str, A
     data = embed.EmbeddedFileObject.from_file_data(writer, data=record_payload, params=params,
                                                    mime_type="application/json")
     embed.embed_file(writer, embed.FileSpec(
-        file_spec_string=rec.RECORD_NAME, embedded_data=data,
-        description="Machine-readable commissioning record (canonical JSON)"))
+        file_spec_string=rec.RECORD_NAME, file_name=rec.RECORD_NAME, embedded_data=data,
+        description="Machine-readable commissioning record (canonical JSON)",
+        af_relationship=generic.NameObject("/Data")))
     for meta in attachments:
         path = state.files.path(meta["sha256"])
         if path is None:
@@ -43,8 +48,10 @@ def embed_files(pdf: bytes, record_payload: bytes, attachments: list[dict[str, A
             writer, data=Path(path).read_bytes(), params=params,
             mime_type="application/octet-stream")
         embed.embed_file(writer, embed.FileSpec(
-            file_spec_string=meta["sha256"], embedded_data=blob,
-            description=f"{meta['name']} ({', '.join(meta['items'])})"))
+            file_spec_string=meta["sha256"], file_name=meta["sha256"], embedded_data=blob,
+            description=f"{meta['name']} ({', '.join(meta['items'])})",
+            af_relationship=generic.NameObject("/Source")))
+    archival.make_pdfa3b(writer, now)
     out = io.BytesIO()
     writer.write(out)
     return out.getvalue()

@@ -53,6 +53,13 @@ def nice_range(values: Sequence[float], margin: float = 0.06, floor_zero: bool =
     return math.floor(lo / step) * step, math.ceil(hi / step) * step, step
 
 
+def _drawing(width: float, height: float) -> Drawing:
+    d = Drawing(width, height)
+    # the renderer's initial state names this font instead of the unembedded Helvetica
+    d.__dict__["initialFontName"] = FONT
+    return d
+
+
 def _frame(d: Drawing, x: float, y: float, w: float, h: float) -> None:
     d.add(Rect(x, y, w, h, fillColor=None, strokeColor=FRAME, strokeWidth=0.6))
 
@@ -100,7 +107,7 @@ def waveform(t_s: Sequence[float], v: Sequence[float], i: Sequence[float],
              note: str) -> Drawing:
     """A few cycles of voltage and current, on two stacked plots sharing time; the sign
     convention (``note``) sits under the plots."""
-    d = Drawing(WIDTH, HEIGHT + 50)
+    d = _drawing(WIDTH, HEIGHT + 50)
     t_ms = [x * 1000 for x in t_s]
     top = _plot(50, 132, WIDTH - 65, 70)
     top.data = [list(zip(t_ms, v, strict=True))]
@@ -124,7 +131,7 @@ def waveform(t_s: Sequence[float], v: Sequence[float], i: Sequence[float],
 def harmonics(orders: Sequence[int], currents: Sequence[float], limits: Sequence[float],
               title: str) -> Drawing:
     """Harmonic currents (bars) beside the Class A limits (light bars)."""
-    d = Drawing(WIDTH, HEIGHT + 30)
+    d = _drawing(WIDTH, HEIGHT + 30)
     bc = VerticalBarChart()
     bc.x, bc.y, bc.width, bc.height = 50, 35, WIDTH - 65, HEIGHT - 45
     bc.data = [list(currents), list(limits)]
@@ -155,7 +162,7 @@ def temperature_curve(series: list[tuple[str, Sequence[tuple[float, float]], obj
                       title: str) -> Drawing:
     """Temperature against time: logged points (dots), fitted or expected lines, and
     horizontal limits (dashed, labelled at the right)."""
-    d = Drawing(WIDTH, HEIGHT + 40)
+    d = _drawing(WIDTH, HEIGHT + 40)
     drawn = [(label, list(points), colour, dots) for label, points, colour, dots in series
              if len(points) >= (1 if dots else 2)]
     lp = _plot(50, 35, WIDTH - 165, HEIGHT - 35)

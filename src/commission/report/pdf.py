@@ -136,6 +136,7 @@ def _table(rows, widths, header=True, zebra=True):
     # splitInRow=0 (reportlab's default): a row is never split across two pages
     t = Table(rows, colWidths=widths, repeatRows=1 if header else 0, splitInRow=0)
     style = [
+        ("FONT", (0, 0), (-1, -1), FONT, 8),  # plain-string cells too: never a base-14 font
         ("VALIGN", (0, 0), (-1, -1), "TOP"),
         ("LEFTPADDING", (0, 0), (-1, -1), 3),
         ("RIGHTPADDING", (0, 0), (-1, -1), 3),
@@ -165,6 +166,7 @@ def _status(c: _Context) -> list:
     status = c.state.status(c.results)
     box = Table([[_p(_STATUS_WORDS[status], c.st["title"])]], colWidths=[480])
     box.setStyle(TableStyle([
+        ("FONT", (0, 0), (-1, -1), FONT, 8),
         ("BOX", (0, 0), (-1, -1), 2, colors.HexColor(_STATUS_COLOURS[status])),
         ("BACKGROUND", (0, 0), (-1, -1), colors.HexColor("#fbfbf7")),
         ("TOPPADDING", (0, 0), (-1, -1), 8), ("BOTTOMPADDING", (0, 0), (-1, -1), 8),
@@ -341,7 +343,7 @@ def _results(c: _Context) -> list:
             rows.append(_result_row(c, r, section_time))
         table = Table(rows, colWidths=widths, repeatRows=2, splitInRow=0)
         style = [
-            ("SPAN", (0, 0), (-1, 0)),
+            ("SPAN", (0, 0), (-1, 0)), ("FONT", (0, 0), (-1, -1), FONT, 8),
             ("VALIGN", (0, 0), (-1, -1), "TOP"),
             ("LEFTPADDING", (0, 0), (-1, -1), 3), ("RIGHTPADDING", (0, 0), (-1, -1), 3),
             ("TOPPADDING", (0, 0), (-1, -1), 2), ("BOTTOMPADDING", (0, 0), (-1, -1), 2),
@@ -437,6 +439,7 @@ def _photos(c: _Context) -> list:
             for k in range(0, len(cells), 2)]
     table = Table(grid, colWidths=[240, 240], splitInRow=0)
     table.setStyle(TableStyle([("VALIGN", (0, 0), (-1, -1), "TOP"),
+                               ("FONT", (0, 0), (-1, -1), FONT, 8),
                                ("BOTTOMPADDING", (0, 0), (-1, -1), 8)]))
     return [_p(c.heading("photos", "Photos"), c.st["h1"]), table]
 
@@ -527,8 +530,9 @@ def render(state: JobState, results: list[Result], record_sha: str, form: dict[s
 
     class NumberedCanvas(canvas.Canvas):
         def __init__(self, *args, **kwargs):
-            kwargs.setdefault("initialFontName", FONT)  # no base-14 font is ever referenced
-            kwargs.setdefault("initialFontSize", 9)
+            # no base-14 (unembedded) font is ever referenced, not even as the initial font
+            kwargs["initialFontName"] = FONT
+            kwargs["initialFontSize"] = kwargs.get("initialFontSize") or 9
             super().__init__(*args, **kwargs)
             self._pages: list[dict] = []
 
