@@ -96,6 +96,8 @@ INPUTS = [
     ("blank", ["blank", "--out", "{OUT}", "--", "{F}"], "checklist"),
     ("checklists-validate", ["checklists", "validate", "--", "{F}"], "checklist"),
     ("checklists-show", ["checklists", "show", "--", "{F}"], "checklist"),
+    ("forms-validate", ["forms", "validate", "--", "{F}"], None),
+    ("forms-show", ["forms", "show", "--", "{F}"], None),
     ("identity-new", ["identity", "new", "--name", "N", "--registration", "R", "--force",
                       "--passphrase-file", "{F}"], "passphrase"),
     ("identity-backup-passphrase", ["identity", "backup", "--out", "{OUT}",
@@ -148,7 +150,7 @@ ODD_TEXTS = ["", " ", "-x", "--help-me", "ünïcødé Ω", "x" * 5000, "'; DROP 
              "%", "%%%%%%%%%", "a\nb", "\x00", "\u202e", "1e999", "nan", "-1"]
 
 PLAIN = ["jobs", "instruments list", "trust list", "identity show", "checklists list",
-         "checklists schema", "jobs --json", "identity show --json", "trust list --json",
+         "checklists schema", "forms list", "forms schema", "jobs --json", "identity show --json", "trust list --json",
          "--version", "--plain --version", "--help", "--plain --help"]
 
 REFUSAL = re.compile(r"^(error: .+|verification failed: .+|.+:\d+: .+?: .+|"

@@ -15,6 +15,8 @@ def validate(
     files: Annotated[list[str], typer.Argument(help="Form files or shipped names.")],
 ) -> None:
     """Validate forms; each problem as FILE:LINE: key: message (exit 2)."""
+    import re
+
     from ..errors import UserError
     from ..report.form import load_form
     from ..resources import resolve
@@ -26,7 +28,10 @@ def validate(
             form = load_form(path)
         except UserError as exc:
             bad = True
-            typer.echo(str(exc), err=True)
+            message = str(exc)
+            if not re.match(r".+:\d+: ", message):  # e.g. no such file: same FILE:LINE form
+                message = f"{name}:1: form: {message.removeprefix(name + ': ')}"
+            typer.echo(message, err=True)
             continue
         typer.echo(f"{path}: ok ({form['id']}, {len(form['sections'])} sections)")
     if bad:

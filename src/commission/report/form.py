@@ -55,7 +55,7 @@ def json_schema() -> dict[str, Any]:
 
 
 def load_form(path: Path) -> dict[str, Any]:
-    """The form as a plain dict; one-line UserError naming the file, line and key."""
+    """The form as a plain dict; a one-line UserError 'FILE:LINE: key: message'."""
     import yaml
 
     from ..errors import UserError
@@ -64,13 +64,13 @@ def load_form(path: Path) -> dict[str, Any]:
         text = path.read_text(encoding="utf-8")
         data = yaml.safe_load(text)
     except (OSError, UnicodeDecodeError) as exc:
-        raise UserError(f"{path}: cannot read the form ({exc})") from None
+        raise UserError(f"{path}:1: form: cannot read ({exc})") from None
     except yaml.YAMLError as exc:
         mark = getattr(exc, "problem_mark", None)
-        line = f":{mark.line + 1}" if mark else ""
-        raise UserError(f"{path}{line}: not valid YAML") from None
+        line = mark.line + 1 if mark else 1
+        raise UserError(f"{path}:{line}: form: not valid YAML") from None
     if not isinstance(data, dict) or data.get("format") != FORMAT:
-        raise UserError(f"{path}: not a form (needs 'format: {FORMAT}')")
+        raise UserError(f"{path}:1: format: not a form (needs 'format: {FORMAT}')")
     try:
         return Form.model_validate(data).model_dump()
     except ValidationError as exc:
@@ -89,4 +89,4 @@ def _line_of(text: str, key: str) -> str:
     for n, line in enumerate(text.splitlines(), start=1):
         if key and line.startswith(f"{key}:"):
             return f":{n}"
-    return ""
+    return ":1"
