@@ -150,7 +150,8 @@ ODD_TEXTS = ["", " ", "-x", "--help-me", "ünïcødé Ω", "x" * 5000, "'; DROP 
              "%", "%%%%%%%%%", "a\nb", "\x00", "\u202e", "1e999", "nan", "-1"]
 
 PLAIN = ["jobs", "instruments list", "trust list", "identity show", "checklists list",
-         "checklists schema", "forms list", "forms schema", "jobs --json", "identity show --json", "trust list --json",
+         "checklists schema", "forms list", "forms schema", "jobs --json",
+         "identity show --json", "trust list --json",
          "--version", "--plain --version", "--help", "--plain --help"]
 
 REFUSAL = re.compile(r"^(error: .+|verification failed: .+|.+:\d+: .+?: .+|"
