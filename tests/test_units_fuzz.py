@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import math
 
+import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
@@ -13,6 +14,7 @@ UNITS = {"voltage": "V", "resistance": "Ω", "time": "ms", "temperature": "°C",
 EXAMPLES = 1500
 
 
+@pytest.mark.slow
 @settings(max_examples=EXAMPLES, deadline=None)
 @given(text=st.text(max_size=40), quantity=st.sampled_from(sorted(UNITS)))
 def test_any_text_parses_or_gives_one_line(text, quantity):
@@ -26,6 +28,7 @@ def test_any_text_parses_or_gives_one_line(text, quantity):
     assert q.minimum is None or parsed.value >= q.minimum
 
 
+@pytest.mark.slow
 @settings(max_examples=EXAMPLES, deadline=None)
 @given(x=st.floats(min_value=0, max_value=1e6, allow_nan=False), comma=st.booleans())
 def test_numbers_round_trip(x, comma):

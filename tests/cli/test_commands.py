@@ -82,6 +82,7 @@ def test_show_unknown_job(cli, new_job):
     assert "job 'ZZZZZ'" in result.stderr
 
 
+@pytest.mark.slow
 def test_non_editable_install_finds_shipped_checklist(tmp_path):
     """Build the wheel, install it without the source tree, and use the checklist by name."""
     wheel_dir = tmp_path / "wheel"

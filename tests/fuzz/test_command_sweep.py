@@ -232,6 +232,7 @@ def _inputs(world, tmp: Path, good_kind: str | None) -> list[tuple[str, Path, bo
     return out
 
 
+@pytest.mark.slow
 @pytest.mark.parametrize("template,good", [t[1:] for t in INPUTS], ids=[t[0] for t in INPUTS])
 def test_file_inputs(world, case, template, good):
     run, fill, tmp = case["run"], case["fill"], case["tmp"]
@@ -251,6 +252,7 @@ def test_file_inputs(world, case, template, good):
                                                            control.output)
 
 
+@pytest.mark.slow
 @pytest.mark.parametrize("template", [t[1] for t in OUTPUTS], ids=[t[0] for t in OUTPUTS])
 def test_file_outputs(case, template):
     run, fill, tmp = case["run"], case["fill"], case["tmp"]

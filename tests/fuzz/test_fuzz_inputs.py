@@ -33,6 +33,9 @@ from hypothesis import strategies as st
 
 from conftest import CHECKLIST, DEMO
 
+# Every test here runs thousands of examples: the fast suite (-m 'not slow') leaves them to CI.
+pytestmark = pytest.mark.slow
+
 FAST = settings(deadline=None, database=None, suppress_health_check=list(HealthCheck))
 # About a minute for the file on a laptop; COMMISSION_FUZZ_SCALE=10 for a deeper run.
 SCALE = float(os.environ.get("COMMISSION_FUZZ_SCALE", "1"))

@@ -46,6 +46,7 @@ def test_t_inf_within_1_5_k_when_soak_covers_1_5_tau(seed):
     assert fit.time_constants_covered == pytest.approx(1.5, rel=0.2)
 
 
+@pytest.mark.slow
 def test_confidence_interval_covers_the_truth_about_95_percent():
     """Monte Carlo over white-noise soaks: the 95 % interval holds the true T_inf in about
     95 % of cases (binomial spread of 300 trials: 0.92...0.98)."""

@@ -68,6 +68,7 @@ def long_record(cli, tmp_path):
     return out
 
 
+@pytest.mark.slow
 def test_150_items_paginate_without_overlap(long_record):
     import pdfplumber
 

@@ -606,6 +606,7 @@ def test_content_changed_in_a_later_signed_revision(cli, tmp_path, monkeypatch):
     assert not report.intact and not report.ok()
 
 
+@pytest.mark.slow
 def test_validation_uses_the_claimed_signing_time(cli):
     """Offline signing: a certificate that expired since signing still counts."""
     from commission.report.signatures import check_signatures
