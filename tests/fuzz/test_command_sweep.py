@@ -178,13 +178,15 @@ def case(world, tmp_path, monkeypatch):
 
     def fill(template, **extra):
         values = {"JOB": world["job"], "PF": world["pf"], "PDF": world["good"]["pdf"],
-                  "OUT": tmp_path / "out.pdf", "HEATING": world["good"]["heating"],
+                  "HEATING": world["good"]["heating"],
                   "CAPTURE": world["good"]["capture"], **extra}
         out = []
         for arg in template:
             for key, value in values.items():
                 if arg == "{" + key + "}":
                     arg = str(value)
+            if arg == "{OUT}":  # a new name each time: report refuses to overwrite
+                arg = str(tmp_path / f"out-{next(counter)}.pdf")
             if arg == "{NEWREG}":
                 arg = str(tmp_path / f"new-{next(counter)}.sqlite3")
             out.append(arg)

@@ -86,6 +86,11 @@ def new(
         raise UserError(f"an identity already exists in {ident.identity_dir()}; give --force "
                         "to replace it (the old one is kept under retired/)")
     passphrase = ask_passphrase(passphrase_file, new=True)
+    from ..report.passphrase import weakness
+
+    problem = weakness(passphrase)
+    if problem is not None:
+        raise UserError(f"identity new: {problem}; no key was made")
     made, retired = ident.create_identity(name, registration, passphrase=passphrase,
                                           email=email, years=years, key_type=key, force=force)
     typer.echo(f"identity made for {made.name}")

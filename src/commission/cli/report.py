@@ -20,10 +20,50 @@ def _write(out: Path, data: bytes) -> None:
         raise UserError(f"{out}: cannot write ({exc.strerror})") from None
 
 
+def _is_signed_pdf(path: Path) -> bool:
+    """A PDF holding a signature dictionary (its signed byte range): cheap, no parsing."""
+    try:
+        with path.open("rb") as handle:
+            return b"/ByteRange" in handle.read()
+    except OSError:
+        return False
+
+
+def _check_out(out: Path, force: bool, sign: bool) -> Path | None:
+    """Refuse to replace an existing file without --force. With --force, a signed record
+    replaced by an unsigned one is first kept beside it under a dated name (returned)."""
+    from ..errors import UserError
+
+    if out.is_dir():
+        raise UserError(f"{out}: is a folder; --out needs a file name")
+    if not out.exists():
+        return None
+    signed = _is_signed_pdf(out)
+    what = "a signed record" if signed else "a file"
+    if not force:
+        raise UserError(f"{out}: {what} already exists; give --force to replace it, or "
+                        "choose another --out")
+    if signed and not sign:
+        from datetime import datetime
+
+        stamp = datetime.now().strftime("%Y%m%dT%H%M%S")
+        kept = out.with_name(f"{out.stem}.signed-{stamp}{out.suffix}")
+        try:
+            out.replace(kept)
+        except OSError as exc:
+            raise UserError(f"{out}: cannot keep the signed record aside ({exc.strerror}); "
+                            "nothing written") from None
+        return kept
+    return None
+
+
 def report(
     job: Annotated[str, typer.Argument(help="Job id or UUID.")],
     out: Annotated[Path, typer.Option(help="The PDF to write.")],
     sign: Annotated[bool, typer.Option(help="Sign with your identity (PAdES).")] = False,
+    force: Annotated[bool, typer.Option(
+        "--force", help="Replace an existing --out file (a signed one is kept aside when "
+        "the new record is unsigned).")] = False,
     form: Annotated[str, typer.Option(help="Form file or shipped name.")] = "handover",
     passphrase_file: Annotated[
         Path | None, typer.Option(help="File holding the key passphrase (for scripts).")
@@ -37,6 +77,8 @@ def report(
     from ..walk.state import JobState
 
     form_data = load_form(resolve("forms", form))
+    if out.exists() and not force:
+        _check_out(out, force, sign)  # refuses before any passphrase is asked
     passphrase = None
     if sign:
         from ..report.identity import load_identity, passphrase_from
@@ -49,7 +91,11 @@ def report(
         state = JobState(reg, reg.find_job(job))
         made = make(state, form_data, sign=sign, passphrase=passphrase)
         state.files.close()
+    kept = _check_out(out, force, sign)
     _write(out, made.pdf)
+    if kept is not None:
+        typer.echo(f"{out} was a signed record: it is kept as {kept.name}; the new record "
+                   "is unsigned", err=True)
     typer.echo(f"record written: {out} ({len(made.pdf)} bytes, status {made.status}, "
                f"{'signed' if sign else 'unsigned'})")
     typer.echo(f"record SHA-256 {made.record_sha256}")
