@@ -30,10 +30,11 @@ class BenchJob:
 def padded_checklist(total_items: int) -> tuple[str, int, list[str]]:
     """YAML text of the shipped checklist with readings appended up to ``total_items``."""
     from commission.checklist import parse
+    from commission.checks import CHECKS
     from commission.resources import resolve
 
     text = resolve("checklists", SHIPPED).read_text(encoding="utf-8")
-    shipped = len(parse(text, SHIPPED).checklist.items())
+    shipped = len(parse(text, SHIPPED, checks=CHECKS).checklist.items())
     extra = total_items - shipped
     if extra < 0:
         raise ValueError(f"the shipped checklist alone has {shipped} items")
@@ -51,7 +52,7 @@ def padded_checklist(total_items: int) -> tuple[str, int, list[str]]:
                       f"        prompt: Voltage at socket {k + 1} of circuit {s + 1}, element "
                       "running at full output"]
     padded = text.rstrip("\n") + "\n\n" + "\n".join(lines) + "\n"
-    got = len(parse(padded, "padded").checklist.items())
+    got = len(parse(padded, "padded", checks=CHECKS).checklist.items())
     if got != total_items:
         raise RuntimeError(f"padded checklist has {got} items, wanted {total_items}")
     return padded, shipped, ids
@@ -87,6 +88,7 @@ def make_job(folder: Path, total_items: int, *, answer_extra: bool = True) -> Be
     import yaml
 
     from commission.checklist import parse
+    from commission.checks import CHECKS
     from commission.register import Register
     from commission.resources import demo_dir
     from commission.walk.answers import apply_answers
@@ -95,7 +97,7 @@ def make_job(folder: Path, total_items: int, *, answer_extra: bool = True) -> Be
 
     folder.mkdir(parents=True, exist_ok=True)
     text, shipped, extra_ids = padded_checklist(total_items)
-    loaded = parse(text, f"{SHIPPED}+{total_items - shipped}")
+    loaded = parse(text, f"{SHIPPED}+{total_items - shipped}", checks=CHECKS)
     from commission.cli.demo import _due
 
     scenario = yaml.safe_load((demo_dir() / "scenario.yaml").read_text(encoding="utf-8"))

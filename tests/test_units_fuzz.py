@@ -23,7 +23,7 @@ def test_any_text_parses_or_gives_one_line(text, quantity):
     except ValueError as exc:
         assert "\n" not in str(exc)
         return
-    assert math.isfinite(parsed.value)
+    assert math.isfinite(parsed.value) or parsed.bound == "open"
     q = QUANTITIES[quantity]
     assert q.minimum is None or parsed.value >= q.minimum
 

@@ -12,7 +12,7 @@ import textwrap
 from typing import Any
 
 from .checks.evaluate import Result
-from .units import show_si
+from .units import Bound, as_reading, show_si
 
 WIDTH = 80
 SIGN_CONVENTION = (
@@ -20,7 +20,7 @@ SIGN_CONVENTION = (
     "line conductor with its arrow pointing into the premises."
 )
 _COLOURS = {"pass": "green", "fail": "red", "review": "yellow", "n/a": "cyan",
-            "pending": "white", "ready": "green", "not-ready": "red", "incomplete": "yellow"}
+            "pending": "white", "recorded": "blue", "ready": "green", "not-ready": "red", "incomplete": "yellow"}
 
 
 def use_colour(stream=None) -> bool:
@@ -81,13 +81,18 @@ def value_text(result: Result) -> str:
         return "skipped"
     if e.action == "na":
         return "n/a"
-    return format_value(result.item, e.value)
+    return format_value(result.item, e.value, e.raw)
 
 
-def format_value(item, value: Any) -> str:
+def format_value(item, value: Any, raw: str | None = None) -> str:
+    """A value in the item's unit. A bound (">299 MΩ", "OL") is shown as it was typed when
+    ``raw`` is given: the reading as the instrument showed it."""
     if value is None:
         return ""
     if item.kind == "reading":
+        bound = as_reading(value)
+        if isinstance(bound, Bound):
+            return " ".join(raw.split()) if raw else bound.text(item.quantity, item.unit)
         return show_si(float(value), item.quantity, item.unit)
     if item.kind == "confirm":
         return "yes" if value else "no"
@@ -124,11 +129,10 @@ def table(results: list[Result], colour: bool = False) -> list[str]:
             lines.append(_section_title(r))
         mark = "!" if r.item.critical else " "
         value = value_text(r)
-        verdict = word(f"{r.verdict:<7}", colour) if colour else f"{r.verdict:<7}"
+        verdict = word(f"{r.verdict:<8}", colour) if colour else f"{r.verdict:<8}"
         ident = r.item.id if len(r.item.id) <= 33 else _clip(r.item.id, 33)
-        lines.append(f"{verdict} {mark}{ident:<33} {_clip(value, WIDTH - 43)}".rstrip())
-        plain = r.item.check is None and r.verdict == "pass"
-        if r.verdict == "pending" or plain:
+        lines.append(f"{verdict} {mark}{ident:<33} {_clip(value, WIDTH - 44)}".rstrip())
+        if r.verdict in ("pending", "recorded"):
             continue
         detail = r.reason
         if r.expected is not None and r.verdict in ("pass", "fail", "review"):

@@ -91,10 +91,61 @@ _UNIT_CHARS = re.compile(r"[^A-Za-z0-9\s/*^²³°Ωμ%·.\-℃]")
 class Parsed:
     """A reading as stored: SI value, the unit typed (None for a bare number)."""
 
-    value: float  # in the quantity's si_unit
+    value: float  # in the quantity's si_unit (inf for an open circuit)
     si_unit: str
     unit_typed: str | None
     shown: str  # the value in the item's unit, for the echo ("231 V")
+    bound: str | None = None  # "over": the instrument's over-range; "open": an open circuit
+
+    def stored(self) -> float | dict[str, float | bool]:
+        """The value as the register keeps it (JSON): a number, or a bound's shape."""
+        if self.bound == "open":
+            return {"open": True}
+        if self.bound == "over":
+            return {"over": self.value}
+        return self.value
+
+
+@dataclass(frozen=True)
+class Bound:
+    """A reading the instrument could only bound: over its range (``>299 MΩ``: the true value
+    is at least ``si``) or an open circuit (``OL``: no finite value; ``si`` is infinite).
+
+    Checks that understand bounds say so when registered; others never see one (the
+    evaluator answers ``review`` for them). ``float()`` gives the lower bound."""
+
+    si: float
+    open: bool = False
+
+    def __float__(self) -> float:
+        return self.si
+
+    def text(self, quantity: str, unit: str) -> str:
+        if self.open:
+            return "open circuit (OL)"
+        return f">{show_si(self.si, quantity, unit)}"
+
+
+def as_reading(value: object) -> object:
+    """A stored reading's value for the checks: a float, or a :class:`Bound` for the shapes
+    ``{"over": si}`` and ``{"open": true}``; anything else unchanged."""
+    if isinstance(value, dict):
+        if value.get("open") is True and len(value) == 1:
+            return Bound(math.inf, open=True)
+        if set(value) == {"over"} and isinstance(value["over"], int | float) \
+                and not isinstance(value["over"], bool):
+            return Bound(float(value["over"]))
+    return value
+
+
+def is_bound_shape(value: object) -> bool:
+    return isinstance(as_reading(value), Bound)
+
+
+# What testers show for an open circuit on a resistance range (compared without case).
+OPEN_WORDS = ("ol", "o.l", "o.l.", "open", "open circuit")
+# What testers show before an over-range figure: ">299 MΩ", "> 1999 MΩ", ">2GΩ", "≥ 200 MΩ".
+_OVER = re.compile(r"^(?:>|≥|>=|over\s)\s*(?P<rest>.+)$", re.IGNORECASE)
 
 
 def quote_typed(text: str, limit: int = 40) -> str:
@@ -235,6 +286,21 @@ def parse_reading(
     name = quantity.replace("_", " ")
     hint = f"a {name}, e.g. {q.examples} (a bare number is read in {item_unit})"
     raw = normalise_text(text)
+    if raw.lower() in OPEN_WORDS:
+        if quantity != "resistance":
+            raise ValueError(f"{quote_typed(text)} means an open circuit, which only a "
+                             f"resistance reading can show; expected {hint}")
+        return Parsed(math.inf, q.si_unit, None, "open circuit (OL)", bound="open")
+    over = _OVER.match(raw)
+    if over:
+        if q.minimum is None:  # a power or a ratio may be negative: no over-range bound
+            raise ValueError(f"{quote_typed(text)}: a lower bound ('>') is accepted on "
+                             f"readings that cannot be negative; expected {hint}")
+        inner = parse_reading(over.group("rest"), quantity, item_unit, accept_min, accept_max)
+        if inner.bound:
+            raise ValueError(f"{quote_typed(text)} is not a reading; expected {hint}")
+        return Parsed(inner.value, inner.si_unit, inner.unit_typed, f">{inner.shown}",
+                      bound="over")
     if raw.lower() in ("nan", "inf", "-inf", "+inf", "infinity"):
         raise ValueError(f"{quote_typed(text)} is not a finite number; expected {hint}")
     try:

@@ -136,8 +136,9 @@ LINE_BREAKS = re.compile("\r\n|[\r\n\x85\u2028\u2029]")
 
 def test_checklist_mutations(capsys):
     from commission.checklist import ChecklistError, parse
+    from commission.checks import CHECKS
 
-    parse(BASE_TEXT, NAME)  # the control: the shipped file itself validates
+    parse(BASE_TEXT, NAME, checks=CHECKS)  # the control: the shipped file itself validates
     seen: Counter = Counter()
     kinds = ["delete", "duplicate", "move", "value", "borrow", "key", "insert", "indent",
              "cut", "crlf"]
@@ -148,7 +149,7 @@ def test_checklist_mutations(capsys):
         text = "".join(_edit_lines(BASE_LINES, ops, VALUES))
         seen["examples"] += 1
         try:
-            loaded = parse(text, NAME)
+            loaded = parse(text, NAME, checks=CHECKS)
         except ChecklistError as exc:
             seen["refused"] += 1
             last = len(LINE_BREAKS.split(text)) + 1
@@ -460,10 +461,11 @@ def memory_folder(tmp_path):
 
 def test_answers_files_through_walk(capsys, new_job, memory_folder, monkeypatch):
     from commission.checklist import load
+    from commission.checks import CHECKS
 
     monkeypatch.setenv("COMMISSION_REGISTER", str(memory_folder / "reg.sqlite3"))
     job = new_job()
-    ids = [i.id for _, i in load(CHECKLIST).checklist.items()]
+    ids = [i.id for _, i in load(CHECKLIST, checks=CHECKS).checklist.items()]
     folder = memory_folder / "answers"
     folder.mkdir()
     # Files an answers file may point at: broken, empty, a folder, a real photo. (Good

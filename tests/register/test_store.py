@@ -10,6 +10,7 @@ import sqlite3
 import pytest
 
 from commission.checklist import load
+from commission.checks import CHECKS
 from commission.register import Register
 from commission.register.schema import SCHEMA_VERSION
 from conftest import CHECKLIST
@@ -23,7 +24,7 @@ def reg(register_path):
 
 @pytest.fixture
 def job(reg):
-    return reg.create_job(load(CHECKLIST), {"site": "Larch House"})
+    return reg.create_job(load(CHECKLIST, checks=CHECKS), {"site": "Larch House"})
 
 
 def test_wal_and_full_sync(reg):

@@ -70,12 +70,13 @@ def test_the_payload_is_live(tmp_path):
 @pytest.mark.parametrize("case", sorted(_tagged(Path("m"))))
 def test_checklist_yaml_constructs_no_objects(cli, tmp_path, case):
     from commission.checklist import ChecklistError, parse
+    from commission.checks import CHECKS
 
     marker = tmp_path / "marker"
     text = _tagged(marker)[case]
     assert "python/" in text  # the case really carries a python tag
     with pytest.raises(ChecklistError):
-        parse(text, "evil.yaml")
+        parse(text, "evil.yaml", checks=CHECKS)
     path = tmp_path / "evil.yaml"
     path.write_text(text, encoding="utf-8")
     result = cli("checklists", "validate", path)

@@ -5,6 +5,7 @@ from __future__ import annotations
 import pytest
 
 from commission.checklist import load
+from commission.checks import CHECKS
 from commission.register import Register
 from commission.walk.session import Walk
 from commission.walk.state import JobState
@@ -39,7 +40,7 @@ class Script:
 def state(register_path):
     reg = Register(register_path)
     reg.open()
-    job = reg.create_job(load(CHECKLIST), {"site": "S"})
+    job = reg.create_job(load(CHECKLIST, checks=CHECKS), {"site": "S"})
     yield JobState(reg, job)
     reg.close()
 
@@ -74,13 +75,16 @@ def test_ctrl_d_leaves_like_quit(state):
 
 def test_help_and_use(state):
     state.reg.add_instrument("MFT-1", "K", "MT", "2030-01-01")
-    term = Script([":help", ":use NOPE", ":use MFT-1", "4.2", ":quit"])
+    term = Script([":help", ":use NOPE", ":use MFT-1", "4.2", ":goto supply.voltage", "236",
+                   ":quit"])
     Walk(state, term).run()
     assert ":skip REASON" in term.text
     assert "instrument 'NOPE': not registered" in term.text
     assert "readings now taken with K MT MFT-1" in term.text
-    (entry,) = state.reg.entries(state.job)
-    assert entry.instrument_id is not None
+    declared, measured = state.reg.entries(state.job)
+    # The PV size is declared (a sum of nameplates): only the measured voltage is stamped.
+    assert (declared.item_id, declared.instrument_id) == ("install.pv.size", None)
+    assert measured.item_id == "supply.voltage" and measured.instrument_id is not None
 
 
 def test_same_answer_adds_nothing(state):

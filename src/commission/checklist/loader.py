@@ -8,14 +8,28 @@ with ``-`` where a problem belongs to no item. YAML is read with the safe loader
 from __future__ import annotations
 
 import hashlib
+from collections.abc import Mapping
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any
+from typing import Any, Protocol
 
 import yaml
 
 from ..errors import UserError
 from .model import Checklist, Item
+
+
+class CheckInfo(Protocol):
+    """What the loader needs to know of a named check (``checks.registry.CheckDef`` is one).
+    The checklist package never imports the checks: callers hand it their registry."""
+
+    kinds: tuple[str, ...]
+    quantities: tuple[str, ...]
+    inputs: Mapping[str, Any]  # name → object with .doc and .required
+    params: Mapping[str, Any]  # name → object with .default
+
+
+Registry = Mapping[str, CheckInfo]
 
 
 @dataclass(frozen=True)
@@ -134,7 +148,8 @@ def _message(err: dict[str, Any]) -> str:
 
 _FIELD_HINTS = (("unit '", "unit"), ("unknown quantity", "quantity"), ("a choice", "options"),
                 ("options must", "options"), ("'quantity'", "quantity"), ("'unit'", "unit"),
-                ("'accept'", "accept"), ("'options'", "options"))
+                ("'accept'", "accept"), ("'measured'", "measured"), ("aliases", "aliases"),
+                ("'options' and", "options"), ("'options'", "options"))
 
 
 def _refine(loc: Path_, err: dict[str, Any]) -> Path_:
@@ -148,8 +163,13 @@ def _refine(loc: Path_, err: dict[str, Any]) -> Path_:
     return loc
 
 
-def parse(text: str, name: str) -> Loaded:
-    """Validate checklist text; raise ChecklistError listing every problem."""
+def parse(text: str, name: str, *, checks: Registry, strict: bool = False) -> Loaded:
+    """Validate checklist text; raise ChecklistError listing every problem.
+
+    ``checks`` is the registry of named checks the items may use. ``strict`` adds the rules
+    for checklists in use from now on (a file given to ``new`` or ``validate``): every
+    critical measured reading has a check. A job's stored checklist text is parsed without
+    them, so jobs started on an older checklist keep opening."""
     from pydantic import ValidationError
 
     problems: list[Problem] = []
@@ -186,7 +206,7 @@ def parse(text: str, name: str) -> Loaded:
         problems.sort(key=lambda p: p.line)
         raise ChecklistError(problems) from None
 
-    problems += _cross_check(checklist, tree, name)
+    problems += _cross_check(checklist, tree, name, checks, strict)
     if problems:
         problems.sort(key=lambda p: p.line)
         raise ChecklistError(problems)
@@ -194,7 +214,8 @@ def parse(text: str, name: str) -> Loaded:
     return Loaded(checklist, text, digest, name)
 
 
-def _cross_check(checklist: Checklist, tree: _Tree, name: str) -> list[Problem]:
+def _cross_check(checklist: Checklist, tree: _Tree, name: str, checks: Registry,
+                 strict: bool) -> list[Problem]:
     """What pydantic cannot see: ids, references between items, check signatures."""
     problems: list[Problem] = []
     seen: dict[str, int] = {}
@@ -234,18 +255,20 @@ def _cross_check(checklist: Checklist, tree: _Tree, name: str) -> list[Problem]:
                     add(("when", "item"), f"condition on '{target.id}', which comes later in "
                         "the walk: move it before this item")
         if item.check is not None:
-            add_check_problems(item, items, add)
+            add_check_problems(item, items, add, checks)
+        elif strict and item.critical and item.is_measured:
+            add(("critical",), "a critical measured reading needs a check that judges it "
+                "(add 'check: {name: ...}', or mark it 'measured: false' if it is declared "
+                "from a nameplate, a setting or a size)")
     return problems
 
 
-def add_check_problems(item: Item, items: dict[str, Item], add) -> None:
-    from ..checks import CHECKS
-
+def add_check_problems(item: Item, items: dict[str, Item], add, checks: Registry) -> None:
     spec = item.check
     assert spec is not None
-    definition = CHECKS.get(spec.name)
+    definition = checks.get(spec.name)
     if definition is None:
-        add(("check", "name"), f"unknown check '{spec.name}' (known: {', '.join(sorted(CHECKS))})")
+        add(("check", "name"), f"unknown check '{spec.name}' (known: {', '.join(sorted(checks))})")
         return
     if item.kind not in definition.kinds:
         add(("check", "name"), f"check '{spec.name}' cannot sit on a {item.kind} item "
@@ -287,8 +310,8 @@ def add_check_problems(item: Item, items: dict[str, Item], add) -> None:
         elif value is not None and (isinstance(value, bool) or not isinstance(value, int | float)):
             add(("check", "params", key), f"parameter '{key}' must be a number, got {value!r}")
 
-def load(path: str | Path) -> Loaded:
-    """Read and validate a checklist file."""
+def load(path: str | Path, *, checks: Registry, strict: bool = True) -> Loaded:
+    """Read and validate a checklist file (with the rules for checklists in use now)."""
     p = Path(path)
     try:
         raw = p.read_bytes()
@@ -303,4 +326,4 @@ def load(path: str | Path) -> Loaded:
     except UnicodeDecodeError as exc:
         raise ChecklistError([Problem(str(p), raw[: exc.start].count(b"\n") + 1, "-",
                                       "not UTF-8 text")]) from None
-    return parse(text, str(p))
+    return parse(text, str(p), checks=checks, strict=strict)

@@ -43,6 +43,13 @@ def _word(value: Any) -> Any:
     return value
 
 
+def fold(text: str) -> str:
+    """A choice answer compared without case, spaces, dashes, dots or slashes:
+    'tn c s', 'TN-C-S' and 'tncs' fold alike."""
+    folded = "".join(c for c in text.lower() if c.isalnum() or c in "½°+")
+    return folded or " ".join(text.lower().split())
+
+
 class Strict(BaseModel):
     model_config = ConfigDict(extra="forbid", frozen=True)
 
@@ -141,7 +148,18 @@ class Item(Strict):
     quantity: str | None = Field(default=None, description="reading items: what is measured")
     unit: str | None = Field(default=None, description="reading items: unit of a bare number")
     accept: Accept | None = None
+    measured: bool | None = Field(
+        default=None,
+        description="reading items: true (the default) when taken with an instrument, which "
+        "is then stamped on it; false when declared from a nameplate, a setting or a size",
+    )
     options: list[str] | None = Field(default=None, description="choice items")
+    aliases: dict[str, list[str]] | None = Field(
+        default=None,
+        description="choice items: option → other spellings people type (e.g. TN-C-S: "
+        "[PME]); case, spaces and dashes are ignored anyway, and an unambiguous start of "
+        "an option is accepted",
+    )
     pass_answer: Literal["yes", "no"] = Field(
         default="yes", description="confirm items: the answer that passes"
     )
@@ -149,6 +167,19 @@ class Item(Strict):
     when: Condition | None = None
     report: ItemReport = Field(default_factory=ItemReport,
                                description="where the item appears in the record")
+
+    @property
+    def is_measured(self) -> bool:
+        """A reading taken with an instrument (not declared)."""
+        return self.kind == "reading" and self.measured is not False
+
+    @field_validator("aliases", mode="before")
+    @classmethod
+    def _alias_words(cls, v: Any) -> Any:
+        if isinstance(v, dict):
+            return {_word(k): [_word(x) for x in (w if isinstance(w, list) else [w])]
+                    for k, w in v.items()}
+        return v
 
     @field_validator("options", mode="before")
     @classmethod
@@ -174,16 +205,29 @@ class Item(Strict):
             if not unit_fits(self.unit, self.quantity):
                 raise ValueError(f"unit '{self.unit}' is not a unit of {self.quantity}")
         else:
-            for key in ("quantity", "unit", "accept"):
+            for key in ("quantity", "unit", "accept", "measured"):
                 if getattr(self, key) is not None:
                     raise ValueError(f"'{key}' belongs to reading items only")
         if self.kind == "choice":
             if not self.options or len(self.options) < 2:
                 raise ValueError("a choice needs at least two 'options'")
-            if len({o.lower() for o in self.options}) != len(self.options):
-                raise ValueError("options must differ (case is ignored)")
-        elif self.options is not None:
-            raise ValueError("'options' belong to choice items only")
+            if len({fold(o) for o in self.options}) != len(self.options):
+                raise ValueError("options must differ (case, spaces and dashes are ignored)")
+            seen = {fold(o): o for o in self.options}
+            for option, spellings in (self.aliases or {}).items():
+                if option not in self.options:
+                    raise ValueError(f"aliases: '{option}' is not one of the options "
+                                     f"({', '.join(self.options)})")
+                for spelling in spellings:
+                    key = fold(spelling)
+                    if not key:
+                        raise ValueError(f"aliases: an empty spelling for '{option}'")
+                    if seen.get(key, option) != option:
+                        raise ValueError(f"aliases: '{spelling}' would read as both "
+                                         f"'{seen[key]}' and '{option}'")
+                    seen[key] = option
+        elif self.options is not None or self.aliases is not None:
+            raise ValueError("'options' and 'aliases' belong to choice items only")
         if self.report.limitations and self.kind != "text":
             raise ValueError("'report: {limitations: true}' belongs to a text item")
         return self

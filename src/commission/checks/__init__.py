@@ -4,7 +4,16 @@ Importing this package registers every check; each module holds the checks of
 one topic and calls :mod:`commission.physics` for the numbers.
 """
 
-from . import clamp, controls, element, heating, protection, recordings, supply  # noqa: F401  (registers the checks)
+from . import (  # noqa: F401  (registers the checks)
+    circuit,
+    clamp,
+    controls,
+    element,
+    heating,
+    protection,
+    recordings,
+    supply,
+)
 from .registry import CHECKS, FAIL, NA, PASS, PENDING, REVIEW, worst
 
 __all__ = ["CHECKS", "FAIL", "NA", "PASS", "PENDING", "REVIEW", "worst"]

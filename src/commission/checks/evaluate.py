@@ -13,12 +13,14 @@ from typing import Any
 
 from ..checklist.model import Checklist, Item
 from ..register.store import Entry, Instrument
+from ..units import Bound, as_reading
 from .registry import (
     CHECKS,
     FAIL,
     NA,
     PASS,
     PENDING,
+    RECORDED,
     REVIEW,
     Context,
     Expected,
@@ -117,9 +119,12 @@ def evaluate(
             results.append(Result(**base, verdict=NA, reason=f"n/a: {entry.raw}",
                                   source="installer's statement"))
             continue
-        outcome = _judge(item, entry.value, current, applicable, checklist, files)
+        outcome = _judge(item, entry.value, current, applicable, checklist, files, by_id)
         verdict, reason = outcome.verdict, outcome.reason
-        inst = instruments.get(entry.instrument_id) if entry.instrument_id else None
+        # An instrument's calibration speaks only for what it measured: a declared value
+        # (nameplate, setting, size) stamped by an older release is not judged by it.
+        inst = instruments.get(entry.instrument_id) \
+            if entry.instrument_id and item.is_measured else None
         if inst is not None and entry.at[:10] > inst.calibration_due:
             note = (f"instrument {inst.serial} was past its calibration due date "
                     f"{inst.calibration_due} when this was taken")
@@ -154,7 +159,8 @@ def _item_source(item: Item, checklist: Checklist) -> str:
 
 
 def _judge(item: Item, value: Any, current: dict[str, Entry], applicable: dict[str, bool],
-           checklist: Checklist, files: Any = None) -> Outcome:
+           checklist: Checklist, files: Any = None,
+           by_id: dict[str, Item] | None = None) -> Outcome:
     source = _item_source(item, checklist)
     if item.check is None:
         if item.kind == "confirm":
@@ -165,11 +171,18 @@ def _judge(item: Item, value: Any, current: dict[str, Entry], applicable: dict[s
                 return Outcome(PASS, f"confirmed: {given}", source, None, expected)
             return Outcome(FAIL, f"answered {given}; {item.pass_answer} is needed before handover",
                            source, Measured(given, None), expected)
-        return Outcome(PASS, "recorded", source)
+        return Outcome(RECORDED, "recorded; no check judges this answer", source)
 
     definition = CHECKS[item.check.name]
     inputs: dict[str, Any] = {}
     refs: dict[str, str | None] = {}
+    bounded: list[str] = []  # what reached the check as a bound (">299 MΩ", "OL")
+    if item.kind == "reading":
+        value = as_reading(value)
+        if isinstance(value, Bound):
+            bounded.append("this reading")
+    if by_id is None:
+        by_id = {i.id: i for _, i in checklist.items()}
     for name, spec in item.check.inputs.items():
         if isinstance(spec, str):
             refs[name] = spec
@@ -177,10 +190,19 @@ def _judge(item: Item, value: Any, current: dict[str, Entry], applicable: dict[s
             if e is None or e.action != "answer" or not applicable.get(spec, True):
                 inputs[name] = MissingInput(name, spec)
             else:
-                inputs[name] = e.value
+                given = e.value
+                if spec in by_id and by_id[spec].kind == "reading":
+                    given = as_reading(given)
+                    if isinstance(given, Bound):
+                        bounded.append(spec)
+                inputs[name] = given
         else:
             refs[name] = None
             inputs[name] = spec["const"] if isinstance(spec, dict) else spec
+    if bounded and not definition.bounds:
+        return Outcome(REVIEW, f"{' and '.join(bounded)} is beyond the instrument's range "
+                       f"(a bound, not a value): check {definition.name} needs a figure to "
+                       "judge; take the reading on a range that shows one", definition.source)
     params = {k: p.default for k, p in definition.params.items()}
     params.update(item.check.params)
     ctx = Context(item.id, value, inputs, refs, params, {"files": files})
@@ -226,4 +248,5 @@ def status_reasons(results: list[Result]) -> list[str]:
     return out
 
 
-__all__ = ["INCOMPLETE", "NOT_READY", "READY", "Result", "evaluate", "job_status", "PASS"]
+__all__ = ["INCOMPLETE", "NOT_READY", "READY", "RECORDED", "Result", "evaluate", "job_status",
+           "PASS"]

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from ..physics import protection as prot
+from ..units import Bound
 from ..units import format_number as f
 from .registry import (
     FAIL,
@@ -16,7 +17,15 @@ from .registry import (
     Param,
     check,
     csv_list,
+    worst,
 )
+
+
+def _bound_measured(value: Bound, scale: float, unit: str) -> Measured:
+    """How a bound reading is shown among a check's figures (scale: SI → unit)."""
+    if value.open:
+        return Measured("OL", unit, bound="open")
+    return Measured(round(value.si * scale, 6), unit, bound="over")
 
 SRC_RCD_TYPE = (
     "IEC 60364-5-53, 531.3.3 type selection (from memory); type A or better for "
@@ -77,6 +86,7 @@ SRC_RCD_TIME = "IEC 61008-1 / IEC 61009-1, Table 1 break times (from memory)"
     "rcd_trip_time",
     summary="RCD break time at a multiple of IΔn (½: must not trip)",
     source=SRC_RCD_TIME,
+    bounds=True,
     kinds=("reading", "confirm"),
     quantities=("time",),
     inputs={
@@ -111,6 +121,16 @@ def rcd_trip_time(ctx: Context) -> Outcome:
         hi = float(ctx.param("max_ms"))
     if ctx.param("min_ms") is not None:
         lo = float(ctx.param("min_ms"))
+    if isinstance(ctx.value, Bound):  # ">300 ms": the tester stopped before a trip
+        label = f"{f(multiple)} × IΔn"
+        measured = _bound_measured(ctx.value, 1000, "ms")
+        expected = Expected("ms", min=lo, max=hi)
+        if hi is not None and ctx.value.si * 1000 >= hi:
+            return Outcome(FAIL, f"no trip within {measured.text()} at {label}, the limit is "
+                           f"{f(hi)} ms: the RCD does not disconnect in time; replace it and "
+                           "test again", SRC_RCD_TIME, measured, expected)
+        return Outcome(REVIEW, f"the tester shows only {measured.text()} at {label}: test "
+                       "again to read the trip time", SRC_RCD_TIME, measured, expected)
     ms = float(ctx.value) * 1000
     expected = Expected("ms", min=lo, max=hi)
     measured = Measured(round(ms, 3), "ms")
@@ -143,6 +163,7 @@ SRC_INSULATION = (
     "insulation_resistance",
     summary="insulation resistance above the minimum for the circuit voltage",
     source=SRC_INSULATION,
+    bounds=True,
     quantities=("resistance",),
     inputs={
         "circuit_voltage": Input("nominal circuit voltage (reading or constant)", required=False),
@@ -161,6 +182,20 @@ def insulation_resistance(ctx: Context) -> Outcome:
     mohm = float(ctx.value) / 1e6
     expected = Expected("MΩ", min=minimum)
     measured = Measured(round(mohm, 6), "MΩ")
+    if isinstance(ctx.value, Bound):
+        # Over-range (">299 MΩ") or OL: the true resistance is at least the bound.
+        measured = _bound_measured(ctx.value, 1e-6, "MΩ")
+        if mohm < minimum:
+            return Outcome(
+                REVIEW,
+                f"the tester shows only {measured.text()}, which does not reach the minimum "
+                f"{f(minimum)} MΩ: test on a range that reads above {f(minimum)} MΩ",
+                SRC_INSULATION, measured, expected,
+            )
+        shown = measured.text()
+        mohm_text = f"{shown} (beyond the tester's range)"
+    else:
+        mohm_text = f"{f(mohm)} MΩ"
     if mohm < minimum:
         return Outcome(
             FAIL,
@@ -172,11 +207,11 @@ def insulation_resistance(ctx: Context) -> Outcome:
         used = float(ctx.input("test_voltage"))
         return Outcome(
             REVIEW,
-            f"{f(mohm)} MΩ, but tested at {f(used)} V instead of {f(test_v)} V: acceptable only "
+            f"{mohm_text}, but tested at {f(used)} V instead of {f(test_v)} V: acceptable only "
             "where the electronics cannot be disconnected",
             SRC_INSULATION, measured, expected,
         )
-    return Outcome(PASS, f"{f(mohm)} MΩ ≥ {f(minimum)} MΩ", SRC_INSULATION, measured, expected)
+    return Outcome(PASS, f"{mohm_text} ≥ {f(minimum)} MΩ", SRC_INSULATION, measured, expected)
 
 
 SRC_ZS = (
@@ -185,31 +220,105 @@ SRC_ZS = (
 )
 
 
+SRC_ZS_R1R2 = (
+    "Zs = Ze + (R1+R2) (IEC 60364-6, 6.4.3.7, from memory); tolerance: IEC 61557 testers "
+    "may be out by up to ±30 % (from memory)"
+)
+SRC_ZE = (
+    "typical maximum Ze declared by UK network operators: TN-C-S 0.35 Ω, TN-S 0.8 Ω "
+    "(from memory; common practice, other countries differ)"
+)
+
+
 @check(
     "loop_impedance",
-    summary="earth fault loop impedance Zs against the breaker's maximum (TN)",
+    summary="earth fault loop impedance Zs against the breaker's maximum (TN); with R1+R2, "
+    "Zs against R1+R2 and Ze = Zs − (R1+R2) against its typical maximum",
     source=SRC_ZS,
     quantities=("resistance",),
     inputs={
         "curve": Input("breaker curve B, C or D (choice item)"),
         "rating": Input("breaker rating In (current reading)"),
+        "r1r2": Input("R1+R2 of the same circuit (resistance reading)", required=False),
+        "earthing": Input("earthing system TN-S or TN-C-S (choice item), for the typical "
+                          "maximum Ze", required=False),
     },
     params={
         "u0_v": Param(230.0, "V", "IEC 60364-4-41"),
         "c_min": Param(0.95, None, "CENELEC TR 50480 (from memory)"),
         "cold_factor": Param(0.8, None, "common practice: cold reading ≤ 80 % of Zs,max"),
+        "r1r2_tolerance": Param(0.3, None, SRC_ZS_R1R2,
+                                "Zs may fall below R1+R2 by this fraction before it fails"),
+        "ze_max_tncs": Param(0.35, "Ω", SRC_ZE),
+        "ze_max_tns": Param(0.8, "Ω", SRC_ZE),
     },
+    bounds=True,
 )
 def loop_impedance(ctx: Context) -> Outcome:
     curve = str(ctx.input("curve"))
     rating = float(ctx.input("rating"))
     zmax = prot.loop_impedance_max_ohm(curve, rating, ctx.param("u0_v"), ctx.param("c_min"))
     factor = ctx.param("cold_factor")
-    zs = float(ctx.value)
     limit = zmax * factor
     expected = Expected("Ω", max=round(limit, 3))
-    measured = Measured(zs, "Ω")
     label = f"{curve}{f(rating)}"
+    if isinstance(ctx.value, Bound):
+        measured = _bound_measured(ctx.value, 1, "Ω")
+        if ctx.value.open:
+            return Outcome(FAIL, "open circuit: no earth fault loop at the element end; the "
+                           "protective conductor or the supply earth is broken",
+                           SRC_ZS, measured, expected)
+        if ctx.value.si > zmax:
+            return Outcome(FAIL, f"{measured.text()} exceeds Zs,max {zmax:.2f} Ω for {label}: "
+                           "the breaker will not disconnect in time", SRC_ZS, measured, expected)
+        return Outcome(REVIEW, f"the tester shows only {measured.text()}: measure on a range "
+                       f"that reads below {limit:.2f} Ω", SRC_ZS, measured, expected)
+    zs = float(ctx.value)
+    measured = Measured(zs, "Ω")
+    base = _zs_against_max(zs, zmax, limit, factor, label, measured, expected)
+    extra = _zs_against_r1r2(ctx, zs)
+    if extra is None:
+        return base
+    verdict, reason, source = extra
+    if verdict == PASS:
+        return Outcome(base.verdict, f"{base.reason}; {reason}", f"{SRC_ZS}; {source}",
+                       measured, expected)
+    first = worst(base.verdict, verdict)
+    text = f"{reason}; {base.reason}" if first == verdict else f"{base.reason}; {reason}"
+    return Outcome(first, text, f"{SRC_ZS}; {source}", measured, expected)
+
+
+def _zs_against_r1r2(ctx: Context, zs: float) -> tuple[str, str, str] | None:
+    """Zs = Ze + (R1+R2): a Zs clearly below R1+R2 is a wrong reading; Ze against the
+    typical maximum of the earthing system. None when R1+R2 is not known."""
+    if not ctx.has("r1r2"):
+        return None
+    r1r2 = ctx.input("r1r2")
+    if isinstance(r1r2, Bound):
+        return None  # R1+R2's own check fails or reviews it
+    r1r2 = float(r1r2)
+    tol = float(ctx.param("r1r2_tolerance"))
+    if zs < r1r2 * (1 - tol):
+        return (FAIL, f"Zs {f(zs)} Ω (this item) is below R1+R2 {f(r1r2)} Ω of the same "
+                f"circuit (item {ctx.refs.get('r1r2')}) by more than {f(tol * 100)} %; Zs "
+                "includes R1+R2, so one of the two readings is wrong: measure both again",
+                SRC_ZS_R1R2)
+    ze = max(zs - r1r2, 0.0)
+    system = str(ctx.input("earthing")) if ctx.has("earthing") else ""
+    key = {"TN-C-S": "ze_max_tncs", "TN-S": "ze_max_tns"}.get(system)
+    if key is None:
+        return (PASS, f"Ze = Zs − (R1+R2) ≈ {f(round(ze, 3))} Ω", SRC_ZS_R1R2)
+    ze_max = float(ctx.param(key))
+    if ze > ze_max:
+        return (REVIEW, f"Ze = Zs − (R1+R2) ≈ {f(round(ze, 3))} Ω is above the typical "
+                f"{f(ze_max)} Ω for {system}: check the supply's earth (measure Ze at the "
+                "origin, main earth disconnected) and the joints", f"{SRC_ZS_R1R2}; {SRC_ZE}")
+    return (PASS, f"Ze ≈ {f(round(ze, 3))} Ω within the typical {f(ze_max)} Ω for {system}",
+            f"{SRC_ZS_R1R2}; {SRC_ZE}")
+
+
+def _zs_against_max(zs: float, zmax: float, limit: float, factor: float, label: str,
+                    measured: Measured, expected: Expected) -> Outcome:
     if zs <= limit:
         return Outcome(
             PASS,
@@ -239,13 +348,23 @@ SRC_TT = "IEC 60364-4-41, 411.5.3: RA · IΔn ≤ 50 V"
     "tt_touch_voltage",
     summary="RA·IΔn ≤ 50 V on a TT installation",
     source=SRC_TT,
+    bounds=True,
     quantities=("resistance",),
     inputs={"residual_rating": Input("RCD rated residual current IΔn (current reading)")},
     params={"limit_v": Param(50.0, "V", SRC_TT)},
 )
 def tt_touch_voltage(ctx: Context) -> Outcome:
-    ra = float(ctx.value)
     idn = float(ctx.input("residual_rating"))
+    if isinstance(ctx.value, Bound):
+        measured = _bound_measured(ctx.value, 1, "Ω")
+        expected = Expected("V", max=ctx.param("limit_v"))
+        if ctx.value.open or ctx.value.si * idn > ctx.param("limit_v"):
+            return Outcome(FAIL, f"RA {measured.text()} × {f(idn * 1000)} mA exceeds "
+                           f"{f(ctx.param('limit_v'))} V: improve the earth electrode",
+                           SRC_TT, measured, expected)
+        return Outcome(REVIEW, f"the tester shows only RA {measured.text()}: measure on a "
+                       "range that gives a figure", SRC_TT, measured, expected)
+    ra = float(ctx.value)
     touch = prot.touch_voltage_tt_v(ra, idn)
     limit = ctx.param("limit_v")
     expected = Expected("V", max=limit)

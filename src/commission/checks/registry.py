@@ -14,6 +14,8 @@ from dataclasses import dataclass, field
 from typing import Any
 
 PASS, FAIL, REVIEW, NA, PENDING = "pass", "fail", "review", "n/a", "pending"
+# An answered item that no check judges: it counts as answered, and never claims a pass.
+RECORDED = "recorded"
 _SEVERITY = {PASS: 0, REVIEW: 1, FAIL: 2}
 
 
@@ -31,14 +33,22 @@ def worst(*verdicts: str) -> str:
 class Measured:
     value: float | str | bool
     unit: str | None
+    bound: str | None = None  # "over": value is a lower bound; "open": an open circuit
 
     def as_json(self) -> dict[str, Any]:
-        return {"value": self.value, "unit": self.unit}
+        out: dict[str, Any] = {"value": self.value, "unit": self.unit}
+        if self.bound:
+            out["bound"] = self.bound
+        return out
 
     def text(self) -> str:
         from ..units import format_number
 
+        if self.bound == "open":
+            return "open circuit (OL)"
         v = format_number(self.value) if isinstance(self.value, int | float) else str(self.value)
+        if self.bound == "over":
+            v = f">{v}"
         return f"{v} {self.unit}" if self.unit else v
 
 
@@ -167,6 +177,7 @@ class CheckDef:
     inputs: dict[str, Input]
     params: dict[str, Param]
     available: bool = True
+    bounds: bool = False  # judges a Bound (">299 MΩ", "OL") honestly as its value or input
 
 
 CHECKS: dict[str, CheckDef] = {}
@@ -182,6 +193,7 @@ def check(
     inputs: dict[str, Input] | None = None,
     params: dict[str, Param] | None = None,
     available: bool = True,
+    bounds: bool = False,
 ) -> Callable[[Callable[[Context], Outcome]], Callable[[Context], Outcome]]:
     """Register a check under ``name``. Adding a check is adding one function."""
 
@@ -189,7 +201,8 @@ def check(
         if name in CHECKS:
             raise RuntimeError(f"check {name!r} registered twice")
         CHECKS[name] = CheckDef(
-            name, fn, summary, source, kinds, quantities, inputs or {}, params or {}, available
+            name, fn, summary, source, kinds, quantities, inputs or {}, params or {}, available,
+            bounds,
         )
         return fn
 

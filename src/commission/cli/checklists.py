@@ -16,13 +16,14 @@ def validate(
 ) -> None:
     """Validate checklists; every problem as FILE:LINE: ITEM-ID: message (exit 2)."""
     from ..checklist import ChecklistError, load
+    from ..checks import CHECKS
     from ..errors import UserError
     from ..resources import resolve
 
     bad = False
     for name in files:
         try:
-            loaded = load(resolve("checklists", name))
+            loaded = load(resolve("checklists", name), checks=CHECKS)
         except ChecklistError as exc:
             bad = True
             for problem in exc.problems:
@@ -47,9 +48,10 @@ def show(
 ) -> None:
     """Show a checklist's items in walk order."""
     from ..checklist import load
+    from ..checks import CHECKS
     from ..resources import resolve
 
-    loaded = load(resolve("checklists", file))
+    loaded = load(resolve("checklists", file), checks=CHECKS)
     c = loaded.checklist
     if as_json:
         emit_json({

@@ -31,6 +31,7 @@ def demo(
     import yaml
 
     from ..checklist import load
+    from ..checks import CHECKS
     from ..errors import UserError
     from ..register import Register
     from ..report import identity, trust
@@ -53,7 +54,7 @@ def demo(
     os.environ["COMMISSION_HOME"] = str(folder)  # identity and trust store live here
     scenario = yaml.safe_load((demo_dir() / "scenario.yaml").read_text(encoding="utf-8"))
     details = scenario["job"]
-    loaded = load(resolve("checklists", scenario["checklist"]))
+    loaded = load(resolve("checklists", scenario["checklist"]), checks=CHECKS)
     passphrase_file = folder / "demo-passphrase.txt"
     passphrase_file.write_text(DEMO_PASSPHRASE + "\n", encoding="utf-8")
     passphrase_file.chmod(0o600)

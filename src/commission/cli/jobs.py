@@ -34,12 +34,13 @@ def new(
 ) -> None:
     """Start a job on a checklist; prints the new job's id as the last line."""
     from ..checklist import load
+    from ..checks import CHECKS
     from ..errors import UserError
     from ..resources import resolve
 
     if not site.strip():
         raise UserError("--site: give the site's name (e.g. --site 'Larch House')")
-    loaded = load(resolve("checklists", checklist))
+    loaded = load(resolve("checklists", checklist), checks=CHECKS)
     details = {"site": site.strip(), "address": address, "client": client,
                "installer": installer, "installer_contact": installer_contact,
                "installer_registration": installer_registration,
@@ -148,7 +149,7 @@ def show(
         echo(line)
     echo("")
     echo("! = critical. Verdicts: pass, fail, review (needs judgement or data),")
-    echo("n/a, pending.")
+    echo("n/a, pending, recorded (answered; no check judges it).")
 
 
 def amend(

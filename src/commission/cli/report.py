@@ -194,9 +194,10 @@ def blank(
 ) -> None:
     """Print a checklist as a paper form to fill by hand."""
     from ..checklist import load
+    from ..checks import CHECKS
     from ..report.blank import render
     from ..resources import resolve
 
-    loaded = load(resolve("checklists", checklist))
+    loaded = load(resolve("checklists", checklist), checks=CHECKS)
     _write(out, render(loaded))
     typer.echo(f"paper form written: {out}")

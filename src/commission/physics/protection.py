@@ -112,3 +112,53 @@ def rated_power_tolerance_w(rated_w: float) -> tuple[float, float]:
 def design_current_a(power_w: float, voltage_v: float) -> float:
     """Design current Ib of a resistive load at its rated voltage [A]."""
     return power_w / voltage_v
+
+
+# -- conductors and fault current --------------------------------------------------------
+# IEC 60228, maximum DC resistance at 20 °C of class 1 and 2 plain (annealed) copper
+# conductors, mΩ/m (from memory; the 1.5–10 mm² values are those in the project's CHECKS.md).
+IEC60228_COPPER_MOHM_PER_M = {1.0: 18.1, 1.5: 12.1, 2.5: 7.41, 4.0: 4.61, 6.0: 3.08,
+                              10.0: 1.83, 16.0: 1.15}
+# IEC 60028 international annealed copper standard: 1/58 Ω·mm²/m at 20 °C; α20 = 0.00393 /K.
+COPPER_RHO20_OHM_MM2_PER_M = 1 / 58
+COPPER_ALPHA20_PER_K = 0.00393
+
+
+def copper_resistance_ohm_per_m(area_mm2: float) -> float:
+    """Resistance of a copper conductor at 20 °C [Ω/m]: the IEC 60228 maximum for a listed
+    size, else ρ20/A of annealed copper (IEC 60028), which is slightly lower."""
+    if area_mm2 <= 0:
+        raise ValueError("a conductor cross-section must be positive")
+    for size, mohm in IEC60228_COPPER_MOHM_PER_M.items():
+        if abs(size - area_mm2) < 1e-9:
+            return mohm / 1000
+    return COPPER_RHO20_OHM_MM2_PER_M / area_mm2
+
+
+def copper_temperature_factor(temp_c: float, alpha20_per_k: float = COPPER_ALPHA20_PER_K
+                              ) -> float:
+    """R(t)/R(20 °C) = 1 + α20·(t − 20) for copper."""
+    return 1 + alpha20_per_k * (temp_c - 20.0)
+
+
+def r1r2_expected_ohm(length_m: float, line_mm2: float, cpc_mm2: float,
+                      temp_c: float = 20.0) -> float:
+    """End-to-end resistance of the line and protective conductors of a circuit [Ω]."""
+    per_m = copper_resistance_ohm_per_m(line_mm2) + copper_resistance_ohm_per_m(cpc_mm2)
+    return length_m * per_m * copper_temperature_factor(temp_c)
+
+
+def fault_current_a(u0_v: float, loop_ohm: float, c: float = 1.0) -> float:
+    """Prospective fault current c·U0/Z [A] (c = 1.1 for the maximum, IEC 60909 voltage
+    factor for low voltage with +10 % tolerance, from memory)."""
+    if loop_ohm <= 0:
+        raise ValueError("a loop impedance must be positive")
+    return c * u0_v / loop_ohm
+
+
+def element_current_a(rated_power_w: float, rated_voltage_v: float, supply_v: float) -> float:
+    """Current of a resistive element rated P at U_r when supplied at U [A]: R = U_r²/P,
+    I = U/R (resistance taken as constant)."""
+    if rated_power_w <= 0 or rated_voltage_v <= 0:
+        raise ValueError("rated power and voltage must be positive")
+    return supply_v * rated_power_w / rated_voltage_v ** 2

@@ -116,7 +116,7 @@ class _Context:
             return ""
         if r.entry.action != "answer":
             return f"{r.entry.action}: {r.entry.raw}"
-        return format_value(r.item, r.entry.value)
+        return format_value(r.item, r.entry.value, r.entry.raw)
 
     def role(self, name: str) -> str | None:
         """The answer of the first answered item declaring a homeowner role."""

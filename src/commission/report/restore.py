@@ -9,6 +9,7 @@ from pathlib import Path
 from typing import Any
 
 from ..checklist import Loaded, parse
+from ..checks import CHECKS
 from ..errors import UserError
 from ..register.store import Register
 
@@ -31,7 +32,7 @@ def restore(reg: Register, data: dict[str, Any], files: dict[str, bytes]) -> tup
             raise UserError(f"entry {n} of the record ({e['uuid']}) is already in {reg.path}, "
                             "in another job; nothing imported")
     checklist = data["checklist"]
-    loaded = parse(checklist["text"], "embedded checklist")
+    loaded = parse(checklist["text"], "embedded checklist", checks=CHECKS)
     if loaded.sha256 != checklist["sha256"]:
         raise UserError("the embedded checklist text does not match its SHA-256; not imported")
     source = (job_data.get("checklist") or {}).get("source", "")

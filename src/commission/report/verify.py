@@ -124,9 +124,10 @@ def declared_hash(reader) -> str | None:
 def reevaluate(data: dict[str, Any], files) -> tuple[list[dict], list[str], str]:
     """Verdicts recomputed from a record; returns (mismatches, not_reevaluable, status)."""
     from ..checklist import parse
+    from ..checks import CHECKS
     from ..checks.evaluate import evaluate, job_status
 
-    loaded = parse(data["checklist"]["text"], "embedded checklist")
+    loaded = parse(data["checklist"]["text"], "embedded checklist", checks=CHECKS)
     entries, instruments = rec.entries_from_record(data)
     results = evaluate(loaded.checklist, entries, instruments, files)
     now = {v["id"]: v for v in rec.verdict_snapshot(results)}

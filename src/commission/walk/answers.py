@@ -121,7 +121,7 @@ def _apply_one(state: JobState, item, spec, base: Path, default_instrument: str 
     else:
         raise BadAnswer("an answer is text (or one of the special forms)")
     instrument = None
-    if instrument_serial and item.kind == "reading":
+    if instrument_serial and item.is_measured:
         instrument = state.reg.instrument_by_serial(instrument_serial)
     answer = parse_answer(item, text, base)
     return state.record(item, text, answer, instrument) is not None

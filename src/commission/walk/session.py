@@ -166,7 +166,7 @@ class Walk:
             return f"skipped ({e.raw})"
         if e.action == "na":
             return f"n/a ({e.raw})"
-        return format_value(r.item, e.value)
+        return format_value(r.item, e.value, e.raw)
 
     def _command(self, text: str, pos: int, results: list[Result]):
         name, _, arg = text[1:].partition(" ")
@@ -244,8 +244,7 @@ class Walk:
             before = self._last.get(r.item.id)
             now = (r.verdict, r.reason)
             if r.item.id == item_id:
-                if own and r.item.check is None and r.item.kind != "confirm" \
-                        and r.verdict == "pass":
+                if own and r.verdict == "recorded":
                     self.term.say("  recorded")
                 elif own:
                     for line in verdict_lines(r, self.term.colour):

@@ -12,6 +12,7 @@ from pathlib import Path
 
 from ..checklist import Loaded, parse
 from ..checklist.model import Item
+from ..checks import CHECKS
 from ..checks.evaluate import Result, evaluate, job_status
 from ..register.store import Entry, Instrument, Job, Register
 from .values import Answer
@@ -81,7 +82,8 @@ class JobState:
     def __post_init__(self) -> None:
         # The job keeps the checklist text it was made with: a changed file on disk
         # does not change an open job.
-        self.loaded = parse(self.job.checklist_text, f"job {self.job.short_id} checklist")
+        self.loaded = parse(self.job.checklist_text, f"job {self.job.short_id} checklist",
+                            checks=CHECKS)
         self.instruments = {i.id: i for i in self.reg.instruments()}
         self.entries = self.reg.entries(self.job)
         self.files = FileStore(self.reg)
@@ -117,7 +119,7 @@ class JobState:
                instrument: Instrument | None = None) -> Entry | None:
         """Commit an answer; None when it repeats the current one exactly."""
         raw = raw.strip()
-        instrument_id = instrument.id if instrument and item.kind == "reading" else None
+        instrument_id = instrument.id if instrument and item.is_measured else None
         value = answer.value
         if answer.path is not None:
             sha, size = self.reg.put_file(answer.path)

@@ -6,7 +6,7 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
-from ..checklist.model import Item
+from ..checklist.model import Item, fold
 from ..units import format_number, parse_reading, quote_typed
 
 YES = {"y", "yes"}
@@ -17,6 +17,60 @@ _IMAGE_MAGIC = {b"\xff\xd8\xff": "JPEG", b"\x89PNG\r\n\x1a\n": "PNG"}
 
 class BadAnswer(ValueError):
     """The answer cannot be used; the message says what would be accepted."""
+
+
+def choose(item: Item, raw: str) -> tuple[str, str]:
+    """The option a typed choice answer means, and how it was matched: 'exact', 'number',
+    'spelling' (case, spaces and dashes ignored, or an alias declared in the checklist) or
+    'prefix' (the start of exactly one option). One line saying what is accepted if none."""
+    options = item.options or []
+    for option in options:
+        if raw == option:
+            return option, "exact"
+    if raw.isdecimal() and 1 <= int(raw) <= len(options):  # not isdigit: "²"
+        return options[int(raw) - 1], "number"
+    key = fold(raw)
+    spellings: dict[str, str] = {fold(o): o for o in options}
+    for option, others in (item.aliases or {}).items():
+        for other in others:
+            spellings[fold(other)] = option
+    if key in spellings:
+        return spellings[key], "spelling"
+    starts = sorted({o for k, o in spellings.items() if key and k.startswith(key)},
+                    key=options.index)
+    if len(starts) == 1:
+        return starts[0], "prefix"
+    listed = ", ".join(f"{n} {o}" for n, o in enumerate(options, 1))
+    if len(starts) > 1:
+        raise BadAnswer(f"{quote_typed(raw)} could be {' or '.join(starts)}; type more of "
+                        f"it, or its number: {listed}")
+    raise BadAnswer(
+        f"{quote_typed(raw)} is not one of the options; type its number or name: {listed}"
+    )
+
+
+def pasted_path(raw: str) -> str:
+    """A path as a terminal or a file manager pastes it: in quotes, as a file:// address,
+    or with backslash-escaped spaces."""
+    from urllib.parse import unquote, urlparse
+
+    text = raw.strip()
+    if len(text) >= 2 and text[0] == text[-1] and text[0] in "'\"":
+        text = text[1:-1]
+    if text.lower().startswith("file://"):
+        parsed = urlparse(text)
+        if parsed.netloc in ("", "localhost"):
+            text = unquote(parsed.path)
+    elif "\\ " in text and not Path(text).exists():
+        import shlex
+
+        try:
+            parts = shlex.split(text)
+        except ValueError:
+            parts = []
+        if len(parts) == 1:
+            text = parts[0]
+    return text
 
 
 @dataclass(frozen=True)
@@ -46,22 +100,20 @@ def parse_answer(item: Item, text: str, base: Path | None = None) -> Answer:
                                    acc.min if acc else None, acc.max if acc else None)
         except ValueError as exc:
             raise BadAnswer(str(exc)) from None
-        return Answer(parsed.value, parsed.unit_typed, f"read as {parsed.shown}")
+        if parsed.bound == "open":
+            echo = "read as an open circuit (OL)"
+        elif parsed.bound == "over":
+            echo = f"read as {parsed.shown} (over the instrument's range: a lower bound)"
+        else:
+            echo = f"read as {parsed.shown}"
+        return Answer(parsed.stored(), parsed.unit_typed, echo)
     if item.kind == "choice":
-        options = item.options or []
-        for option in options:
-            if raw.lower() == option.lower():
-                return Answer(option, echo=option)
-        if raw.isdecimal() and 1 <= int(raw) <= len(options):  # not isdigit: "²"
-            option = options[int(raw) - 1]
-            return Answer(option, echo=f"read as {option}")
-        listed = ", ".join(f"{n} {o}" for n, o in enumerate(options, 1))
-        raise BadAnswer(
-            f"{quote_typed(raw)} is not one of the options; type its number or name: {listed}"
-        )
+        option, how = choose(item, raw)
+        return Answer(option, echo=option if how == "exact" else f"read as {option}")
     if item.kind == "text":
         return Answer(raw, echo="")
     # file and photo: a path to something taken on site
+    raw = pasted_path(raw)
     try:
         path = Path(raw).expanduser()
     except RuntimeError:  # '~nosuchuser/...'
