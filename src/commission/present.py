@@ -20,7 +20,8 @@ SIGN_CONVENTION = (
     "line conductor with its arrow pointing into the premises."
 )
 _COLOURS = {"pass": "green", "fail": "red", "review": "yellow", "n/a": "cyan",
-            "pending": "white", "recorded": "blue", "ready": "green", "not-ready": "red", "incomplete": "yellow"}
+            "pending": "white", "recorded": "blue", "ready": "green", "not-ready": "red",
+            "incomplete": "yellow"}
 
 
 def use_colour(stream=None) -> bool:
