@@ -248,6 +248,8 @@ def _sigkill_run(seed, cli, new_job, register_path, tmp_path, capsys) -> None:
                     time.sleep(rng.uniform(0.0, 0.03))
 
         if finished:
+            child.expect("Enter leaves")  # the end prompt, where :goto still works
+            child.sendline("")
             child.expect(pexpect.EOF)
             child.close()
             assert child.exitstatus == 0
@@ -293,6 +295,8 @@ def _sigkill_run(seed, cli, new_job, register_path, tmp_path, capsys) -> None:
         child.sendline(":quit")
     else:
         assert _first_pending(cli, job, register_path) is None
+        child.expect("Enter leaves")
+        child.sendline("")
     child.expect(pexpect.EOF)
     child.close()
     assert child.exitstatus == 0

@@ -217,3 +217,47 @@ def test_new_job_details_are_checked(cli):
         result = cli("new", "--checklist", "diverter-1ph", "--site", "S", option, value)
         assert result.exit_code == 2, (option, result.stdout)
         assert words in result.stderr and len(result.stderr.strip().splitlines()) == 1
+
+
+def test_register_from_schema_3_migrates_on_first_use(tmp_path, cli):
+    """tests/data/register-v3.sqlite3 was written by main's code at schema 3, before the
+    instrument in use was kept with the job. It opens, migrates, keeps every entry, and then
+    keeps an instrument in use per job. Reference: the file is read with plain sqlite3."""
+    import shutil
+
+    from conftest import ROOT
+
+    old = tmp_path / "old.sqlite3"
+    shutil.copy(ROOT / "tests" / "data" / "register-v3.sqlite3", old)
+    db = sqlite3.connect(old)
+    assert db.execute("PRAGMA user_version").fetchone()[0] == 3
+    before = db.execute("SELECT uuid, raw, instrument_id, at FROM entries ORDER BY id").fetchall()
+    db.close()
+    result = cli("show", "PWB2N", "--json", "--register", old)
+    assert result.exit_code == 0, result.stderr
+    data = json.loads(result.stdout)
+    assert data["job"]["site"] == "Fixture Cottage (schema 3)"
+    volt = next(i for i in data["items"] if i["id"] == "supply.voltage")
+    assert volt["raw"] == "238 V" and volt["instrument"] == "MFT-77310"
+    db = sqlite3.connect(old)
+    assert db.execute("PRAGMA user_version").fetchone()[0] == SCHEMA_VERSION
+    assert db.execute("SELECT uuid, raw, instrument_id, at FROM entries ORDER BY id"
+                      ).fetchall() == before
+    assert db.execute("PRAGMA integrity_check").fetchone()[0] == "ok"
+    assert db.execute("SELECT count(*) FROM job_instrument").fetchone()[0] == 0
+    db.close()
+    # An answers run with --instrument keeps it with the job; the next run without the
+    # option stamps the same instrument, on measured readings only.
+    answers = tmp_path / "a.yaml"
+    answers.write_text("earth.zs: 0.61 Ω\n", encoding="utf-8")
+    assert cli("walk", "PWB2N", "--answers", answers, "--instrument", "MFT-77310",
+               "--register", old).exit_code == 0
+    answers.write_text("element.cold_resistance: 18.6 Ω\n", encoding="utf-8")
+    assert cli("walk", "PWB2N", "--answers", answers, "--register", old).exit_code == 0
+    data = json.loads(cli("show", "PWB2N", "--json", "--register", old).stdout)
+    stamped = {i["id"]: i["instrument"] for i in data["items"] if i["raw"]}
+    assert stamped["earth.zs"] == "MFT-77310"
+    assert stamped["element.cold_resistance"] == "MFT-77310"
+    # The job keeps checklist 1.3.0, which marks nothing declared: its readings all count
+    # as measured (the behaviour it was started with).
+    assert data["job"]["checklist"]["version"] == "1.3.0"

@@ -144,6 +144,8 @@ def test_conditions_second_pass_and_end(cli, register_path):
     child.expect("End of the checklist")
     child.expect(r"status: (\S+)")
     assert child.match.group(1) == "ready"
+    child.expect("Enter leaves")
+    child.sendline("")
     child.expect(pexpect.EOF)
     child.close()
     assert child.exitstatus == 0

@@ -30,15 +30,14 @@ SRC_ELEMENT = (
     },
 )
 def element_power(ctx: Context) -> Outcome:
+    if isinstance(ctx.value, Bound) and ctx.value.open:  # whatever the nameplate says
+        return Outcome(FAIL, "open circuit (OL): the element is broken, or a wire or the "
+                       "thermostat is open; replace or repair before energising",
+                       SRC_ELEMENT, Measured("OL", "Ω", bound="open"))
     rated_w = float(ctx.input("rated_power"))
     rated_v = float(ctx.input("rated_voltage"))
     if isinstance(ctx.value, Bound):
         lo = rated_w * (1 - ctx.param("below_pct") / 100)
-        if ctx.value.open:
-            return Outcome(FAIL, "open circuit (OL): the element is broken, or a wire or the "
-                           "thermostat is open; replace or repair before energising",
-                           SRC_ELEMENT, Measured("OL", "Ω", bound="open"),
-                           Expected("W", min=round(lo, 1)))
         top = prot.element_power_w(rated_v, ctx.value.si)  # the most it can give
         measured = Measured(ctx.value.si, "Ω", bound="over")
         if top < lo:

@@ -255,6 +255,12 @@ SRC_ZE = (
     bounds=True,
 )
 def loop_impedance(ctx: Context) -> Outcome:
+    if not isinstance(ctx.value, Bound):
+        # Zs below R1+R2 is a wrong reading whatever the breaker: say so before asking
+        # for the breaker's curve and rating.
+        extra = _zs_against_r1r2(ctx, float(ctx.value))
+        if extra is not None and extra[0] == FAIL:
+            return Outcome(FAIL, extra[1], f"{SRC_ZS_R1R2}", Measured(float(ctx.value), "Ω"))
     curve = str(ctx.input("curve"))
     rating = float(ctx.input("rating"))
     zmax = prot.loop_impedance_max_ohm(curve, rating, ctx.param("u0_v"), ctx.param("c_min"))

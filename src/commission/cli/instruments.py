@@ -33,6 +33,9 @@ def add(
     with open_register(register) as reg:
         inst = reg.add_instrument(serial.strip(), make.strip(), model.strip(), due.isoformat())
     typer.echo(f"{inst.serial}: {inst.make} {inst.model}, calibration due {inst.calibration_due}")
+    note = inst.overdue_note()
+    if note:
+        typer.echo(f"warning: {note}", err=True)
 
 
 @app.command("list")

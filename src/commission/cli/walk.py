@@ -33,6 +33,23 @@ class _Tty:
         sys.stdout.flush()
 
 
+def _check_start(state, ref: str) -> None:
+    """`--item` names an item or a section of the job's checklist that applies here."""
+    from ..errors import UserError
+
+    results = state.results()
+    for r in results:
+        if r.item.id == ref:
+            if r.applicable:
+                return
+            raise UserError(f"--item {ref}: {r.reason}")
+    if any(r.section == ref and r.applicable for r in results):
+        return
+    sections = ", ".join(dict.fromkeys(r.section for r in results))
+    raise UserError(f"--item '{ref}': no such item or section in this job's checklist "
+                    f"(sections: {sections})")
+
+
 def walk(
     job: Annotated[str, typer.Argument(help="Job id or UUID.")],
     answers: Annotated[
@@ -40,7 +57,11 @@ def walk(
         typer.Option(help="Apply an answers file (item id → typed text) instead of asking."),
     ] = None,
     instrument: Annotated[
-        str | None, typer.Option(help="Serial of the instrument taking the readings.")] = None,
+        str | None, typer.Option(help="Serial of the instrument taking the measured readings "
+                                 "(kept with the job).")] = None,
+    item: Annotated[
+        str | None, typer.Option("--item", help="Open this item (or every item of this "
+                                 "section) first, answered or not.")] = None,
     register: RegisterOpt = None,
 ) -> None:
     """Walk the job's checklist on site: one item at a time, each answer kept at once."""
@@ -51,11 +72,19 @@ def walk(
         target = reg.find_job(job)
         inst = reg.instrument_by_serial(instrument) if instrument else None
         with JobLock(reg.path, target.uuid, target.short_id):
+            if inst is not None:
+                # Kept with the job: a walk resumed after Ctrl-C stamps the same instrument.
+                reg.set_instrument_in_use(target, inst)
+                note = inst.overdue_note()
+                if note and answers is not None:  # the interactive walk says it in its header
+                    typer.echo(f"warning: {note}", err=True)
+            else:
+                inst = reg.instrument_in_use(target)
             state = JobState(reg, target)
             if answers is not None:
                 from ..walk.answers import apply_answers
 
-                report = apply_answers(state, answers, instrument)
+                report = apply_answers(state, answers, inst.serial if inst else None)
                 for item_id, message in report.rejected:
                     typer.echo(f"{item_id}: {message}", err=True)
                 status = state.status()
@@ -64,6 +93,8 @@ def walk(
                 if report.rejected:
                     raise typer.Exit(2)
                 return
+            if item is not None:
+                _check_start(state, item)
             if not sys.stdin.isatty():
                 from ..errors import UserError
 
@@ -71,6 +102,6 @@ def walk(
                                 "scripted run")
             from ..walk.session import Walk
 
-            code = Walk(state, _Tty(), inst).run()
+            code = Walk(state, _Tty(), inst, start=item).run()
     if code:
         raise typer.Exit(code)

@@ -6,7 +6,7 @@ release is migrated on first use; a newer one is refused rather than damaged.
 
 from __future__ import annotations
 
-SCHEMA_VERSION = 3
+SCHEMA_VERSION = 4
 
 # Step n brings a register from version n-1 to n. Never edit a released step:
 # add the next one.
@@ -85,5 +85,15 @@ MIGRATIONS: dict[int, str] = {
     ALTER TABLE jobs ADD COLUMN timezone TEXT NOT NULL DEFAULT '';
     ALTER TABLE jobs ADD COLUMN language TEXT NOT NULL DEFAULT '';
     ALTER TABLE jobs ADD COLUMN next_inspection TEXT NOT NULL DEFAULT '';
+    """,
+    # 4: the instrument in use is kept with the job, so a walk stopped by Ctrl-C (or on
+    # another day) resumes stamping the same instrument on its measured readings. A setting
+    # of the walk, not a fact of the record: each entry still names its own instrument.
+    4: """
+    CREATE TABLE job_instrument (
+        job_id INTEGER PRIMARY KEY REFERENCES jobs(id),
+        instrument_id INTEGER REFERENCES instruments(id),
+        at TEXT NOT NULL
+    );
     """,
 }

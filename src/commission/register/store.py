@@ -125,6 +125,16 @@ class Instrument:
     calibration_due: str  # ISO date
     added_at: str
 
+    def overdue_note(self, today: str | None = None) -> str | None:
+        """One line when the calibration due date has passed (today as an ISO date)."""
+        from datetime import date
+
+        today = today or date.today().isoformat()
+        if self.calibration_due >= today:
+            return None
+        return (f"instrument {self.serial}: calibration was due {self.calibration_due}; "
+                "readings taken with it are marked review until it is calibrated")
+
     def as_json(self) -> dict[str, Any]:
         return {
             "serial": self.serial,
@@ -397,6 +407,19 @@ class Register:
             raise UserError(f"instrument '{serial}': not registered (registered: {known}; "
                             "add it with 'commission instruments add')")
         return Instrument(*row)
+
+    def instrument_in_use(self, job: Job) -> Instrument | None:
+        """The instrument the job's walk stamps on measured readings, if one was chosen."""
+        row = self.db.execute("SELECT instrument_id FROM job_instrument WHERE job_id = ?",
+                              (job.id,)).fetchone()
+        return self.instrument(row[0]) if row and row[0] is not None else None
+
+    def set_instrument_in_use(self, job: Job, instrument: Instrument | None) -> None:
+        with self._transaction():
+            self._write(
+                "INSERT INTO job_instrument (job_id, instrument_id, at) VALUES (?,?,?)"
+                " ON CONFLICT(job_id) DO UPDATE SET instrument_id = excluded.instrument_id,"
+                " at = excluded.at", (job.id, instrument.id if instrument else None, now_iso()))
 
     # -- files and photos ----------------------------------------------------
     def put_file(self, path: Path) -> tuple[str, int]:

@@ -22,7 +22,8 @@ Commands (an answer never starts with a colon):
   :back            go to the previous item
   :skip REASON     leave this item for later (it stays under review)
   :na REASON       not applicable here (refused on critical items)
-  :use SERIAL      the instrument for the readings that follow
+  :use SERIAL      the instrument for the measured readings that follow
+                   (kept with the job; :use none to clear it)
   :goto ITEM-ID    jump to an item
   :status          where the job stands
   :help            this help and the item's help again
@@ -43,6 +44,7 @@ class Walk:
     state: JobState
     term: Terminal
     instrument: Instrument | None = None
+    start: str | None = None  # an item or section id to open first, answered or not
     answered: int = field(default=0, init=False)
     _last: dict[str, tuple[str, str]] = field(default_factory=dict, init=False)
 
@@ -59,17 +61,19 @@ class Walk:
         self._remember(results)
         self._header(results)
         try:
-            pos = self._first_pending_from(results, 0)
+            if self.start is not None:
+                self._walk_positions(self.positions(self.start))
+            pos = self._first_pending_from(self._results(), 0)
             if pos is not None:
-                self._walk_from(pos, second_pass=False)
+                self._walk_from(pos)
             skipped = [i for i, r in enumerate(self._results()) if r.skipped]
             if skipped:
                 ids = ", ".join(self._results()[i].item.id for i in skipped)
                 self.term.say("")
                 self.term.say(_wrap(f"Skipped so far: {ids}. Second pass: answer them now, "
                                     "or press Enter to leave them skipped."))
-                for i in skipped:
-                    self._ask_item(i, second_pass=True)
+                self._walk_positions(skipped, second_pass=True)
+            return self._end()
         except _Quit:
             return self._stopped()
         except EOFError:  # Ctrl-D: leave as :quit does
@@ -78,10 +82,18 @@ class Walk:
         except KeyboardInterrupt:
             self.term.say("")
             return self._stopped(interrupted=True)
-        self._summary()
-        return 0
 
-    def _walk_from(self, pos: int, second_pass: bool) -> None:
+    def positions(self, ref: str) -> list[int]:
+        """Positions of an item id, or of every applicable item of a section id."""
+        results = self._results()
+        for n, r in enumerate(results):
+            if r.item.id == ref:
+                return [n] if r.applicable else []
+        return [n for n, r in enumerate(results) if r.section == ref and r.applicable]
+
+    def _walk_from(self, pos: int | None, second_pass: bool = False) -> None:
+        """Ask the item at pos, then go on to the next pending item (or where :back or
+        :goto lead) until none is pending."""
         while pos is not None:
             outcome = self._ask_item(pos, second_pass)
             results = self._results()
@@ -91,6 +103,53 @@ class Walk:
                 pos = outcome
             else:
                 pos = self._first_pending_from(results, pos + 1)
+
+    def _walk_positions(self, positions: list[int], second_pass: bool = False) -> None:
+        """Ask these items in order, answered or not; :back and :goto leave the list."""
+        n = 0
+        while n < len(positions):
+            outcome = self._ask_item(positions[n], second_pass)
+            if outcome == "back":
+                self._walk_from(self._previous(self._results(), positions[n]))
+                return
+            if isinstance(outcome, int):
+                self._walk_from(outcome)
+                return
+            n += 1
+
+    def _end(self) -> int:
+        """The end of the checklist: status, what needs attention, and a prompt where
+        :goto and :back still reach every answer (Enter leaves)."""
+        while True:
+            self._summary()
+            while True:
+                raw = self.term.ask("> ").strip()
+                if not raw:
+                    return 0
+                if not raw.startswith(":"):
+                    self.term.say("  the checklist is done: :goto ITEM-ID to change an answer, "
+                                  "Enter to leave")
+                    continue
+                name, _, arg = raw[1:].partition(" ")
+                name, arg = name.lower(), arg.strip()
+                results = self._results()
+                if name in ("quit", "q", "exit"):
+                    return 0
+                if name == "status":
+                    self._status_lines(results)
+                    continue
+                target: int | None = None
+                if name == "back":
+                    target = self._previous(results, len(results))
+                elif name == "goto":
+                    target = self._goto(arg, results)
+                else:
+                    self.term.say("  at the end: :goto ITEM-ID, :back, :status, or Enter to "
+                                  "leave")
+                    continue
+                if target is not None:
+                    self._walk_from(target)
+                    break
 
     def _previous(self, results: list[Result], pos: int) -> int:
         for i in range(pos - 1, -1, -1):
@@ -112,7 +171,7 @@ class Walk:
         self.term.say(_wrap(item.prompt))
         if item.help:
             self.term.say(_wrap(item.help, "  "))
-        if item.kind == "reading" and self.instrument is not None:
+        if item.is_measured and self.instrument is not None:
             self.term.say(f"  instrument: {self.instrument.serial} (:use SERIAL to change)")
         hint = self._hint(item)
         if r.entry is not None:
@@ -209,28 +268,49 @@ class Walk:
                 current = self.instrument.serial if self.instrument else "none"
                 self.term.say(f"  instrument now: {current}; :use SERIAL to change")
                 return None
+            if arg.lower() in ("none", "-"):
+                self.instrument = None
+                self.state.reg.set_instrument_in_use(self.state.job, None)
+                self.term.say("  no instrument in use now")
+                return None
             try:
                 self.instrument = self.state.reg.instrument_by_serial(arg)
             except Exception as exc:  # UserError: unknown serial
-                self.term.say(f"  {exc}")
+                self.term.say(_wrap(str(exc), "  "))
                 return None
             i = self.instrument
-            self.term.say(f"  readings now taken with {i.make} {i.model} {i.serial} "
-                          f"(calibration due {i.calibration_due})")
+            # Kept with the job at once: Ctrl-C and a later resume keep using it.
+            self.state.reg.set_instrument_in_use(self.state.job, i)
+            self.term.say(_wrap(f"readings now taken with {i.make} {i.model} {i.serial} "
+                                f"(calibration due {i.calibration_due})", "  "))
+            note = i.overdue_note()
+            if note:
+                self.term.say(_wrap(f"warning: {note}", "  "))
             return None
         if name == "goto":
-            for n, r in enumerate(results):
-                if r.item.id == arg:
-                    if not r.applicable:
-                        self.term.say(f"  {arg}: {r.reason}")
-                        return None
-                    return n
-            self.term.say(f"  no item '{arg}' in this checklist")
-            return None
+            return self._goto(arg, results)
         if name == "status":
             self._status_lines(results)
             return None
         self.term.say(f"  unknown command ':{name}' (:help lists the commands)")
+        return None
+
+    def _goto(self, arg: str, results: list[Result]) -> int | None:
+        """Position of an item id (or the first item of a section id), or None with a line
+        saying why."""
+        if not arg:
+            self.term.say("  say where: :goto ITEM-ID (or a section id)")
+            return None
+        for n, r in enumerate(results):
+            if r.item.id == arg:
+                if not r.applicable:
+                    self.term.say(_wrap(f"{arg}: {r.reason}", "  "))
+                    return None
+                return n
+        found = [n for n, r in enumerate(results) if r.section == arg and r.applicable]
+        if found:
+            return found[0]
+        self.term.say(_wrap(f"no item or section '{arg}' in this checklist", "  "))
         return None
 
     # -- verdicts --------------------------------------------------------
@@ -263,6 +343,13 @@ class Walk:
         for caution in c.cautions:
             self.term.say(_wrap(f"CAUTION: {caution}"))
         self.term.say(_wrap(SIGN_CONVENTION))
+        if self.instrument is not None:
+            i = self.instrument
+            self.term.say(_wrap(f"Instrument in use: {i.make} {i.model} {i.serial}, stamped on "
+                                "measured readings (:use SERIAL to change)"))
+            note = i.overdue_note()
+            if note:
+                self.term.say(_wrap(f"warning: {note}"))
         done = sum(1 for r in results if r.entry is not None)
         self.term.say(f"{done} of {len(results)} items recorded. Type :help for commands.")
 
@@ -281,7 +368,18 @@ class Walk:
         self.term.say("")
         self.term.say("End of the checklist.")
         self._status_lines(results)
+        attention = [r for r in results if r.verdict in ("fail", "review") or r.skipped]
+        if attention:
+            self.term.say(f"Needs attention ({len(attention)}):")
+            for r in attention:
+                what = "skipped" if r.skipped else r.verdict
+                crit = " [critical]" if r.item.critical else ""
+                self.term.say(_clip(f"  {word(f'{what:<7}', self.term.colour)} :goto "
+                                    f"{r.item.id}{crit}", r.item.id))
+                reason = r.reason.removeprefix("skipped: ")
+                self.term.say(_clip(f"          {reason}"))
         self.term.say(f"Full table: commission show {self.state.job.short_id}")
+        self.term.say(_wrap(":goto ITEM-ID or :back changes an answer; Enter leaves."))
 
     def _stopped(self, interrupted: bool = False) -> int:
         kept = sum(1 for e in self.state.entries if e.action != "detail")
@@ -292,6 +390,13 @@ class Walk:
 
 class _Quit(Exception):
     pass
+
+
+def _clip(line: str, keep: str = "") -> str:
+    """One line of at most 80 columns (an id named in ``keep`` is never cut)."""
+    if len(line) <= WIDTH or (keep and len(line) - len(keep) > WIDTH):
+        return line
+    return line[: WIDTH - 1] + "…"
 
 
 def _wrap(text: str, indent: str = "") -> str:
