@@ -154,6 +154,7 @@ def test_demo_page_one_tells_the_truth(demo_record):
     from cryptography.hazmat.primitives import hashes
 
     from commission.checklist import load
+    from commission.checks import CHECKS
     from commission.resources import resolve
 
     page1 = _flat(_text(demo_record, 1, 1))
@@ -161,7 +162,7 @@ def test_demo_page_one_tells_the_truth(demo_record):
         (demo_record.parent / "identity" / "cert.pem").read_bytes())
     assert cert.fingerprint(hashes.SHA256()).hex() in page1.replace(" ", "")
     assert re.search(r"Next inspection or service due: \d{4}-\d\d-\d\d", page1)
-    checklist = load(resolve("checklists", "diverter-1ph")).checklist
+    checklist = load(resolve("checklists", "diverter-1ph"), checks=CHECKS).checklist
     show = subprocess.run(["pdftotext", str(demo_record), "-"], capture_output=True, text=True)
     assert show.returncode == 0
     import json
@@ -190,9 +191,11 @@ def test_no_item_id_leads_a_row(demo_record):
     import pdfplumber
 
     from commission.checklist import load
+    from commission.checks import CHECKS
     from commission.resources import resolve
 
-    ids = {i.id for _, i in load(resolve("checklists", "diverter-1ph")).checklist.items()}
+    loaded = load(resolve("checklists", "diverter-1ph"), checks=CHECKS)
+    ids = {i.id for _, i in loaded.checklist.items()}
     seen = 0
     with pdfplumber.open(demo_record) as pdf:
         for page in pdf.pages:

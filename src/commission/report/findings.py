@@ -72,6 +72,7 @@ def next_inspection(details: dict[str, str], checklist, generated_at: str
 def departures(checklist, sha256: str) -> list[Finding]:
     """How the job's checklist differs from the shipped checklist of the same id."""
     from ..checklist import load
+    from ..checks import CHECKS
     from ..errors import UserError
     from ..resources import shipped
 
@@ -81,7 +82,7 @@ def departures(checklist, sha256: str) -> list[Finding]:
                         "not a shipped checklist: its items and limits are the installer's "
                         "own")]
     try:
-        ref = load(path)
+        ref = load(path, checks=CHECKS)
     except UserError:
         return []
     if ref.sha256 == sha256:
