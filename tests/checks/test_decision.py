@@ -21,7 +21,7 @@ ZMAX = 230 * 0.95 / 80  # 2.73125 Ω
 def test_upper_limit_with_margin(zs, u, want):
     d = decide_upper(zs, u, "Ω", accept=0.8 * ZMAX, reject=ZMAX)
     assert d.verdict == want
-    assert f"± {u:g} Ω" in d.note
+    assert f"± {u:.2f} Ω" in d.note or f"± {u:.3f} Ω" in d.note  # GUM 7.2.6: 2 digits
 
 
 def test_without_uncertainty_the_verdict_is_as_before_and_says_so():
@@ -43,3 +43,12 @@ def test_simple_acceptance_ignores_the_guard_band():
 def test_lower_limit(mohm, u, want):
     """Insulation ≥ 1.0 MΩ: pass when reading − U ≥ 1, fail when reading + U < 1."""
     assert decide_lower(mohm, u, "MΩ", accept=1.0).verdict == want
+
+
+@pytest.mark.parametrize("u,text", [(0.084755, "0.085"), (3.74123, "3.7"), (13.8564, "14"),
+                                    (138.6, "140"), (0.001234, "0.0012")])
+def test_uncertainty_shown_to_two_significant_digits(u, text):
+    """GUM 7.2.6: an uncertainty is given to at most two significant digits."""
+    from commission.checks.decision import two_significant
+
+    assert two_significant(u) == text

@@ -18,11 +18,14 @@ from conftest import DEMO
 
 @pytest.fixture
 def demo_job(cli, new_job, tmp_path):
-    for serial in ("MFT-40917", "CLAMP-2291"):
+    for serial in ("MFT-40917", "CLAMP-2291", "PA-5530"):
         assert cli("instruments", "add", "--serial", serial, "--make", "K", "--model", "M",
                    "--calibration-due", "2099-12-31").exit_code == 0
     files = tmp_path / "files"
     shutil.copytree(DEMO / "files", files)
+    from commission.demo.voltage import write_capture
+
+    write_capture(files / "supply-voltage.wav")  # the demo makes it when it runs
     job = new_job(site="Larch House")
 
     def run(replace: dict[str, str] | None = None) -> dict:
@@ -30,6 +33,7 @@ def demo_job(cli, new_job, tmp_path):
         for old, new in (replace or {}).items():
             assert old in text, old
             text = text.replace(old, new)
+        text += "flicker.capture: {file: files/supply-voltage.wav}\n"
         answers = tmp_path / "answers.yaml"
         answers.write_text(text, encoding="utf-8")
         result = cli("walk", job, "--answers", answers)

@@ -49,7 +49,7 @@ def _not_plain(text: str) -> set[str]:
 def _answered_job(cli, new_job) -> str:
     """A job with the demo's answers: every kind of verdict line and source appears."""
     job = new_job(site="Plain Test")
-    for serial in ("MFT-40917", "CLAMP-2291"):
+    for serial in ("MFT-40917", "CLAMP-2291", "PA-5530"):
         cli("instruments", "add", "--serial", serial, "--make", "Keelson", "--model", "M",
             "--calibration-due", "2030-01-01")
     result = cli("walk", job, "--answers", DEMO / "answers.yaml")

@@ -261,3 +261,35 @@ def test_register_from_schema_3_migrates_on_first_use(tmp_path, cli):
     # The job keeps checklist 1.3.0, which marks nothing declared: its readings all count
     # as measured (the behaviour it was started with).
     assert data["job"]["checklist"]["version"] == "1.3.0"
+
+
+def test_register_from_schema_4_migrates_on_first_use(tmp_path, cli):
+    """tests/data/register-v4.sqlite3 was written by main's code at schema 4 (before stated
+    instrument accuracies): it gains the accuracy columns and keeps every entry; sqlite3
+    itself reads them back."""
+    import shutil
+
+    from conftest import ROOT
+
+    old = tmp_path / "old.sqlite3"
+    shutil.copy(ROOT / "tests" / "data" / "register-v4.sqlite3", old)
+    db = sqlite3.connect(old)
+    assert db.execute("PRAGMA user_version").fetchone()[0] == 4
+    before = db.execute("SELECT uuid, raw, at, host FROM entries ORDER BY id").fetchall()
+    db.close()
+    result = cli("show", "MFCYG", "--json", "--register", old)
+    assert result.exit_code == 0, result.stderr
+    data = json.loads(result.stdout)
+    assert data["job"]["site"] == "Fixture House (schema 4)"
+    zs = next(i for i in data["items"] if i["id"] == "earth.zs")
+    assert [h["raw"] for h in zs["history"]] == ["0.71 Ω"]
+    db = sqlite3.connect(old)
+    assert db.execute("PRAGMA user_version").fetchone()[0] == SCHEMA_VERSION
+    assert db.execute("SELECT uuid, raw, at, host FROM entries ORDER BY id").fetchall() == before
+    assert db.execute("SELECT accuracy, accuracy_read_as FROM instruments").fetchall() == [
+        ("", "")]
+    assert db.execute("PRAGMA integrity_check").fetchone()[0] == "ok"
+    db.close()
+    listed = cli("instruments", "list", "--json", "--register", old)
+    assert json.loads(listed.stdout)[0]["serial"] == "MFT-20931"
+    assert "accuracy" not in json.loads(listed.stdout)[0]  # none stated before

@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
+from functools import lru_cache
 from typing import Any
 
 SRC_FLICKER = ("IEC 61000-4-15:2010 flickermeter (our implementation, verified against the "
@@ -173,3 +174,12 @@ def predict_burst_fire(power_w: float, impedance_ohm: complex | None = None, *,
     step = 100.0 * fl.relative_voltage_change(power_w, z, supply_v)
     return BurstFirePrediction(power_w, z, reference, supply_v, step, values, limit,
                                period_cycles)
+
+
+@lru_cache(maxsize=64)
+def cached_burst_fire(power_w: float, impedance_ohm: complex | None, supply_v: float,
+                      period_cycles: int | None, limit: float) -> BurstFirePrediction:
+    """:func:`predict_burst_fire`, remembered: a pure function of its arguments, asked again
+    each time a job's verdicts are derived."""
+    return predict_burst_fire(power_w, impedance_ohm, supply_v=supply_v,
+                              period_cycles=period_cycles, limit=limit)

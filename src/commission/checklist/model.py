@@ -106,7 +106,7 @@ class Condition(Strict):
 
 
 HOMEOWNER_ROLES = ("device", "location", "isolator", "settings", "lights", "keep_clear",
-                   "heater_power", "store_volume", "water_regime")
+                   "heater_power", "store_volume", "water_regime", "forced_modes")
 
 
 class ItemReport(Strict):

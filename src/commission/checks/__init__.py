@@ -10,6 +10,8 @@ from . import (  # noqa: F401  (registers the checks)
     controls,
     element,
     heating,
+    metering,
+    output,
     protection,
     recordings,
     supply,

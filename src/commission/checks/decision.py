@@ -14,6 +14,7 @@ when ``reading − U`` is beyond the limit itself.
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 from ..units import format_number as f
@@ -23,7 +24,7 @@ SRC_DECISION = "ILAC-G8:09/2019 §4.2.3 non-binary rule, guard band w = U (expan
 GUARDED, SIMPLE = "guarded", "simple"
 DECISION_PARAM = Param(GUARDED, None, SRC_DECISION,
                        "'guarded' (ILAC-G8 non-binary, w = U) or 'simple' (simple acceptance)")
-NO_UNCERTAINTY = "no uncertainty applied: the instrument states no accuracy"
+NO_UNCERTAINTY = "no uncertainty applied: no stated instrument accuracy covers this reading"
 
 
 @dataclass(frozen=True)
@@ -44,8 +45,16 @@ def rule_of(ctx: Context) -> str:
     return rule
 
 
+def two_significant(u: float) -> str:
+    """An uncertainty to two significant digits (GUM 7.2.6): 0.08476 → "0.085"."""
+    if u <= 0 or not math.isfinite(u):
+        return f(u)
+    decimals = 1 - math.floor(math.log10(u))
+    return f"{round(u, decimals):.{max(decimals, 0)}f}"
+
+
 def _interval(value: float, u: float, unit: str) -> str:
-    return f"{f(round(value, 6))} ± {f(round(u, 6))} {unit} (U, k = 2)"
+    return f"{f(round(value, 6))} ± {two_significant(u)} {unit} (U, k = 2)"
 
 
 def decide_upper(value: float, u: float | None, unit: str, *, accept: float,

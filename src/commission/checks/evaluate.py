@@ -119,7 +119,8 @@ def evaluate(
             results.append(Result(**base, verdict=NA, reason=f"n/a: {entry.raw}",
                                   source="installer's statement"))
             continue
-        outcome = _judge(item, entry.value, current, applicable, checklist, files, by_id)
+        outcome = _judge(item, entry.value, current, applicable, checklist, files, by_id,
+                         instruments)
         verdict, reason = outcome.verdict, outcome.reason
         # An instrument's calibration speaks only for what it measured: a declared value
         # (nameplate, setting, size) stamped by an older release is not judged by it.
@@ -158,9 +159,29 @@ def _item_source(item: Item, checklist: Checklist) -> str:
     return item.source or f"checklist {checklist.id} {checklist.version}"
 
 
+def _uncertainty(item: Item | None, entry: Entry | None,
+                 instruments: dict[int, Instrument]) -> Any:
+    """A function giving the expanded uncertainty (SI) of a reading, or None without one."""
+    if item is None or entry is None or item.kind != "reading" or not entry.instrument_id:
+        return None
+    inst = instruments.get(entry.instrument_id)
+    if inst is None or not inst.accuracy or isinstance(entry.value, bool) or \
+            not isinstance(entry.value, int | float) or item.quantity is None:
+        return None
+    quantity = item.quantity
+
+    def compute() -> float | None:
+        acc = inst.parsed_accuracy()
+        return acc.expanded(float(entry.value), quantity, typed=entry.raw,
+                            typed_unit=entry.unit_typed)
+
+    return compute
+
+
 def _judge(item: Item, value: Any, current: dict[str, Entry], applicable: dict[str, bool],
            checklist: Checklist, files: Any = None,
-           by_id: dict[str, Item] | None = None) -> Outcome:
+           by_id: dict[str, Item] | None = None,
+           instruments: dict[int, Instrument] | None = None) -> Outcome:
     source = _item_source(item, checklist)
     if item.check is None:
         if item.kind == "confirm":
@@ -174,6 +195,7 @@ def _judge(item: Item, value: Any, current: dict[str, Entry], applicable: dict[s
         return Outcome(RECORDED, "recorded; no check judges this answer", source)
 
     definition = CHECKS[item.check.name]
+    instruments = instruments or {}
     inputs: dict[str, Any] = {}
     refs: dict[str, str | None] = {}
     bounded: list[str] = []  # what reached the check as a bound (">299 MΩ", "OL")
@@ -183,6 +205,8 @@ def _judge(item: Item, value: Any, current: dict[str, Entry], applicable: dict[s
             bounded.append("this reading")
     if by_id is None:
         by_id = {i.id: i for _, i in checklist.items()}
+    input_u: dict[str, Any] = {}
+    typed: dict[str, tuple[str, str | None]] = {}
     for name, spec in item.check.inputs.items():
         if isinstance(spec, str):
             refs[name] = spec
@@ -196,6 +220,10 @@ def _judge(item: Item, value: Any, current: dict[str, Entry], applicable: dict[s
                     if isinstance(given, Bound):
                         bounded.append(spec)
                 inputs[name] = given
+                typed[name] = (e.raw, e.unit_typed)
+                u_fn = _uncertainty(by_id.get(spec), e, instruments)
+                if u_fn is not None:
+                    input_u[name] = u_fn
         else:
             refs[name] = None
             inputs[name] = spec["const"] if isinstance(spec, dict) else spec
@@ -205,7 +233,11 @@ def _judge(item: Item, value: Any, current: dict[str, Entry], applicable: dict[s
                        "judge; take the reading on a range that shows one", definition.source)
     params = {k: p.default for k, p in definition.params.items()}
     params.update(item.check.params)
-    ctx = Context(item.id, value, inputs, refs, params, {"files": files})
+    own = current.get(item.id)
+    ctx = Context(item.id, value, inputs, refs, params,
+                  {"files": files, "uncertainty": _uncertainty(item, own, instruments),
+                   "input_uncertainty": input_u, "input_typed": typed,
+                   "own_typed": (own.raw, own.unit_typed) if own is not None else None})
     try:
         return definition.fn(ctx)
     except MissingInput as missing:

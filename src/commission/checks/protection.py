@@ -5,6 +5,14 @@ from __future__ import annotations
 from ..physics import protection as prot
 from ..units import Bound
 from ..units import format_number as f
+from .decision import (
+    DECISION_PARAM,
+    GUARDED,
+    SRC_DECISION,
+    decide_lower,
+    decide_upper,
+    rule_of,
+)
 from .registry import (
     FAIL,
     PASS,
@@ -96,6 +104,7 @@ SRC_RCD_TIME = "IEC 61008-1 / IEC 61009-1, Table 1 break times (from memory)"
     params={
         "max_ms": Param(None, "ms", SRC_RCD_TIME, "empty: from the table by class and multiple"),
         "min_ms": Param(None, "ms", SRC_RCD_TIME, "empty: from the table by class and multiple"),
+        "decision_rule": DECISION_PARAM,
     },
 )
 def rcd_trip_time(ctx: Context) -> Outcome:
@@ -132,25 +141,40 @@ def rcd_trip_time(ctx: Context) -> Outcome:
         return Outcome(REVIEW, f"the tester shows only {measured.text()} at {label}: test "
                        "again to read the trip time", SRC_RCD_TIME, measured, expected)
     ms = float(ctx.value) * 1000
+    u = ctx.uncertainty()
+    u_ms = None if u is None else u * 1000
+    rule = rule_of(ctx)
     expected = Expected("ms", min=lo, max=hi)
     measured = Measured(round(ms, 3), "ms")
     label = f"{f(multiple)} × IΔn, {'type S' if cls == 'S' else 'general type'}"
-    if hi is not None and ms > hi:
+    source = SRC_RCD_TIME if u_ms is None or rule != GUARDED else f"{SRC_RCD_TIME}; {SRC_DECISION}"
+    slow = decide_upper(ms, u_ms, "ms", accept=hi, rule=rule) if hi is not None else None
+    fast = decide_lower(ms, u_ms, "ms", accept=lo, rule=rule) if lo is not None else None
+    if slow is not None and slow.verdict == FAIL:
         return Outcome(
             FAIL,
             f"{f(ms)} ms at {label} is slower than {f(hi)} ms: the RCD does not disconnect "
-            "in time; replace it and test again",
-            SRC_RCD_TIME, measured, expected,
+            f"in time; replace it and test again{slow.tail()}",
+            source, measured, expected,
         )
-    if lo is not None and ms < lo:
+    if fast is not None and fast.verdict == FAIL:
         return Outcome(
             FAIL,
             f"{f(ms)} ms at {label} is faster than {f(lo)} ms: not acting as a selective "
-            "device; check its marking",
-            SRC_RCD_TIME, measured, expected,
+            f"device; check its marking{fast.tail()}",
+            source, measured, expected,
         )
-    return Outcome(PASS, f"{f(ms)} ms at {label} is within {expected.text()}",
-                   SRC_RCD_TIME, measured, expected)
+    for d, bound in ((slow, hi), (fast, lo)):
+        if d is not None and d.verdict == REVIEW:
+            return Outcome(
+                REVIEW,
+                f"{f(ms)} ms at {label} is within the tester's uncertainty of {f(bound)} ms: "
+                f"repeat the test, or use a more accurate tester{d.tail()}",
+                source, measured, expected,
+            )
+    tail = (slow or fast).tail() if (slow or fast) is not None else ""
+    return Outcome(PASS, f"{f(ms)} ms at {label} is within {expected.text()}{tail}",
+                   source, measured, expected)
 
 
 SRC_INSULATION = (
@@ -172,6 +196,7 @@ SRC_INSULATION = (
     params={
         "min_mohm": Param(None, "MΩ", SRC_INSULATION, "empty: from the table"),
         "selv": Param(0, None, SRC_INSULATION, "1 for a SELV or PELV circuit"),
+        "decision_rule": DECISION_PARAM,
     },
 )
 def insulation_resistance(ctx: Context) -> Outcome:
@@ -196,22 +221,37 @@ def insulation_resistance(ctx: Context) -> Outcome:
         mohm_text = f"{shown} (beyond the tester's range)"
     else:
         mohm_text = f"{f(mohm)} MΩ"
-    if mohm < minimum:
+    # a bound (">299 MΩ") above the minimum passes as it stands: the tester's uncertainty
+    # applies to a figure it shows, not to the end of its range
+    u = None if isinstance(ctx.value, Bound) else ctx.uncertainty()
+    rule = rule_of(ctx)
+    d = decide_lower(mohm, None if u is None else u / 1e6, "MΩ", accept=minimum, rule=rule)
+    source = (SRC_INSULATION if u is None or rule != GUARDED
+              else f"{SRC_INSULATION}; {SRC_DECISION}")
+    if d.verdict == FAIL:
         return Outcome(
             FAIL,
             f"{f(mohm)} MΩ is below {f(minimum)} MΩ: find the fault (damp, a damaged cable, "
-            "the element sheath) before energising",
-            SRC_INSULATION, measured, expected,
+            f"the element sheath) before energising{d.tail()}",
+            source, measured, expected,
+        )
+    if d.verdict == REVIEW:
+        return Outcome(
+            REVIEW,
+            f"{f(mohm)} MΩ is within the tester's uncertainty of {f(minimum)} MΩ: too close "
+            f"to call; dry out and test again, or find the leakage{d.tail()}",
+            source, measured, expected,
         )
     if ctx.has("test_voltage") and float(ctx.input("test_voltage")) < test_v:
         used = float(ctx.input("test_voltage"))
         return Outcome(
             REVIEW,
             f"{mohm_text}, but tested at {f(used)} V instead of {f(test_v)} V: acceptable only "
-            "where the electronics cannot be disconnected",
-            SRC_INSULATION, measured, expected,
+            f"where the electronics cannot be disconnected{d.tail()}",
+            source, measured, expected,
         )
-    return Outcome(PASS, f"{mohm_text} ≥ {f(minimum)} MΩ", SRC_INSULATION, measured, expected)
+    return Outcome(PASS, f"{mohm_text} ≥ {f(minimum)} MΩ{d.tail()}", source, measured,
+                   expected)
 
 
 SRC_ZS = (
@@ -251,6 +291,7 @@ SRC_ZE = (
                                 "Zs may fall below R1+R2 by this fraction before it fails"),
         "ze_max_tncs": Param(0.35, "Ω", SRC_ZE),
         "ze_max_tns": Param(0.8, "Ω", SRC_ZE),
+        "decision_rule": DECISION_PARAM,
     },
     bounds=True,
 )
@@ -281,17 +322,18 @@ def loop_impedance(ctx: Context) -> Outcome:
                        f"that reads below {limit:.2f} Ω", SRC_ZS, measured, expected)
     zs = float(ctx.value)
     measured = Measured(zs, "Ω")
-    base = _zs_against_max(zs, zmax, limit, factor, label, measured, expected)
+    base = _zs_against_max(zs, zmax, limit, factor, label, measured, expected,
+                           ctx.uncertainty(), rule_of(ctx))
     extra = _zs_against_r1r2(ctx, zs)
     if extra is None:
         return base
     verdict, reason, source = extra
     if verdict == PASS:
-        return Outcome(base.verdict, f"{base.reason}; {reason}", f"{SRC_ZS}; {source}",
+        return Outcome(base.verdict, f"{base.reason}; {reason}", f"{base.source}; {source}",
                        measured, expected)
     first = worst(base.verdict, verdict)
     text = f"{reason}; {base.reason}" if first == verdict else f"{base.reason}; {reason}"
-    return Outcome(first, text, f"{SRC_ZS}; {source}", measured, expected)
+    return Outcome(first, text, f"{base.source}; {source}", measured, expected)
 
 
 def _zs_against_r1r2(ctx: Context, zs: float) -> tuple[str, str, str] | None:
@@ -324,26 +366,38 @@ def _zs_against_r1r2(ctx: Context, zs: float) -> tuple[str, str, str] | None:
 
 
 def _zs_against_max(zs: float, zmax: float, limit: float, factor: float, label: str,
-                    measured: Measured, expected: Expected) -> Outcome:
-    if zs <= limit:
+                    measured: Measured, expected: Expected, u: float | None,
+                    rule: str) -> Outcome:
+    """Zs against the cold margin and Zs,max, with the tester's uncertainty as a guard band
+    on top of the margin (ILAC-G8 non-binary rule)."""
+    d = decide_upper(zs, u, "Ω", accept=limit, reject=zmax, rule=rule)
+    source = SRC_ZS if u is None or rule != GUARDED else f"{SRC_ZS}; {SRC_DECISION}"
+    if d.verdict == PASS:
         return Outcome(
             PASS,
-            f"{f(zs)} Ω ≤ {limit:.2f} Ω ({f(factor * 100)} % of Zs,max {zmax:.2f} Ω for {label})",
-            SRC_ZS, measured, expected,
+            f"{f(zs)} Ω ≤ {limit:.2f} Ω ({f(factor * 100)} % of Zs,max {zmax:.2f} Ω for "
+            f"{label}){d.tail()}",
+            source, measured, expected,
         )
-    if zs <= zmax:
-        return Outcome(
-            REVIEW,
-            f"{f(zs)} Ω is under Zs,max {zmax:.2f} Ω for {label} but above {f(factor * 100)} % "
-            "of it: may exceed the limit when the conductors are hot; judge with the cable "
-            "temperature and length",
-            SRC_ZS, measured, expected,
-        )
+    if d.verdict == REVIEW:
+        if u is not None and zs <= limit:
+            why = (f"{f(zs)} Ω is within the tester's uncertainty of {limit:.2f} Ω "
+                   f"({f(factor * 100)} % of Zs,max {zmax:.2f} Ω for {label}): too close to "
+                   "call; measure again with a more accurate tester or judge with the cable "
+                   "temperature and length")
+        elif u is not None and zs > zmax:
+            why = (f"{f(zs)} Ω is over Zs,max {zmax:.2f} Ω for {label} but within the tester's "
+                   "uncertainty of it: measure again with a more accurate tester")
+        else:
+            why = (f"{f(zs)} Ω is under Zs,max {zmax:.2f} Ω for {label} but above "
+                   f"{f(factor * 100)} % of it: may exceed the limit when the conductors are "
+                   "hot; judge with the cable temperature and length")
+        return Outcome(REVIEW, why + d.tail(), source, measured, expected)
     return Outcome(
         FAIL,
         f"{f(zs)} Ω exceeds Zs,max {zmax:.2f} Ω for {label}: the breaker will not disconnect "
-        "in time; improve the earth path, shorten the cable or choose another device",
-        SRC_ZS, measured, expected,
+        f"in time; improve the earth path, shorten the cable or choose another device{d.tail()}",
+        source, measured, expected,
     )
 
 

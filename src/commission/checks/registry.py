@@ -138,6 +138,21 @@ class Context:
     def param(self, name: str) -> Any:
         return self.params[name]
 
+    def uncertainty(self) -> float | None:
+        """Expanded uncertainty U (k = 2, SI) of this item's reading from its instrument's
+        stated accuracy, or None when the instrument states none that covers it."""
+        compute = self.extra.get("uncertainty")
+        return compute() if compute is not None else None
+
+    def input_typed(self, name: str) -> tuple[str, str | None] | None:
+        """An input item's reading as typed and the unit typed, or None for a constant."""
+        return self.extra.get("input_typed", {}).get(name)
+
+    def input_uncertainty(self, name: str) -> float | None:
+        """The same for an input item's reading (None for constants and unknown accuracy)."""
+        compute = self.extra.get("input_uncertainty", {}).get(name)
+        return compute() if compute is not None else None
+
     def file_path(self, value: Any):
         """Local path of a recorded file or photo, or MissingFile if it is not at hand."""
         files = self.extra.get("files")

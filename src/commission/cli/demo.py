@@ -65,10 +65,20 @@ def demo(
     with Register(register) as reg:
         for inst in scenario["instruments"]:
             reg.add_instrument(inst["serial"], inst["make"], inst["model"],
-                               _due(inst["calibration_due"]))
+                               _due(inst["calibration_due"]), inst.get("accuracy", ""),
+                               inst.get("accuracy_as", ""))
         job = reg.create_job(loaded, details, by="demo")
         state = JobState(reg, job)
         report = apply_answers(state, demo_dir() / scenario["answers"])
+        # The 10-minute voltage capture is made now, not shipped (2.5 MB of invented data).
+        from ..demo.voltage import write_capture
+
+        write_capture(folder / "supply-voltage.wav")
+        made_now = folder / "demo-answers-generated.yaml"
+        made_now.write_text("flicker.capture: {file: supply-voltage.wav}\n", encoding="utf-8")
+        more = apply_answers(state, made_now)
+        report.added += more.added
+        report.rejected.extend(more.rejected)
         for item_id, message in report.rejected:
             typer.echo(f"{item_id}: {message}", err=True)
         made = make(state, load_form(resolve("forms", "handover")), sign=True,

@@ -6,7 +6,7 @@ release is migrated on first use; a newer one is refused rather than damaged.
 
 from __future__ import annotations
 
-SCHEMA_VERSION = 4
+SCHEMA_VERSION = 5
 
 # Step n brings a register from version n-1 to n. Never edit a released step:
 # add the next one.
@@ -95,5 +95,11 @@ MIGRATIONS: dict[int, str] = {
         instrument_id INTEGER REFERENCES instruments(id),
         at TEXT NOT NULL
     );
+    """,
+    # 5: an instrument's stated accuracy as the maker prints it, and how that figure is to
+    # be read ('bound' or 'k2'), so verdicts can apply its uncertainty. Older ones: none.
+    5: """
+    ALTER TABLE instruments ADD COLUMN accuracy TEXT NOT NULL DEFAULT '';
+    ALTER TABLE instruments ADD COLUMN accuracy_read_as TEXT NOT NULL DEFAULT '';
     """,
 }

@@ -124,6 +124,8 @@ class Instrument:
     model: str
     calibration_due: str  # ISO date
     added_at: str
+    accuracy: str = ""  # the maker's statement, e.g. "±(0.5 % + 2 digits)"; "" = none stated
+    accuracy_read_as: str = ""  # "bound" or "k2" (see commission.accuracy)
 
     def overdue_note(self, today: str | None = None) -> str | None:
         """One line when the calibration due date has passed (today as an ISO date)."""
@@ -136,12 +138,23 @@ class Instrument:
                 "readings taken with it are marked review until it is calibrated")
 
     def as_json(self) -> dict[str, Any]:
-        return {
+        data = {
             "serial": self.serial,
             "make": self.make,
             "model": self.model,
             "calibration_due": self.calibration_due,
         }
+        if self.accuracy:  # only when stated, so records without it keep their shape
+            data["accuracy"] = {"text": self.accuracy, "read_as": self.accuracy_read_as}
+        return data
+
+    def parsed_accuracy(self):
+        """The stated accuracy parsed (commission.accuracy.Accuracy), or None if none."""
+        if not self.accuracy:
+            return None
+        from ..accuracy import parse_accuracy
+
+        return parse_accuracy(self.accuracy, self.accuracy_read_as)
 
 
 @dataclass
@@ -384,13 +397,15 @@ class Register:
 
     # -- instruments ---------------------------------------------------------
     def add_instrument(self, serial: str, make: str, model: str,
-                       calibration_due: str) -> Instrument:
+                       calibration_due: str, accuracy: str = "",
+                       accuracy_read_as: str = "") -> Instrument:
         if self.db.execute("SELECT 1 FROM instruments WHERE serial = ?", (serial,)).fetchone():
             raise UserError(f"instrument '{serial}': already registered")
         with self._transaction():
             cur = self._write(
-                "INSERT INTO instruments (serial, make, model, calibration_due, added_at)"
-                " VALUES (?,?,?,?,?)", (serial, make, model, calibration_due, now_iso()))
+                "INSERT INTO instruments (serial, make, model, calibration_due, added_at,"
+                " accuracy, accuracy_read_as) VALUES (?,?,?,?,?,?,?)",
+                (serial, make, model, calibration_due, now_iso(), accuracy, accuracy_read_as))
         return self.instrument(cur.lastrowid)
 
     def instrument(self, instrument_id: int) -> Instrument:

@@ -235,3 +235,28 @@ def _float(value: Any) -> float | None:
         return float(value)
     except (TypeError, ValueError):
         return None
+
+
+@chart("metering_accuracy")
+def _metering(data: ChartInput) -> Drawn | None:
+    """The diverter's grid power against the reference instrument's, point by point."""
+    from ..physics.metering import class_limit_pct
+
+    pairs = [(data.number(f"{n}_reference"), data.number(f"{n}_shown")) for n in ("p1", "p2",
+                                                                              "p4")]
+    pairs.append((data.number("p3_reference"), _float(data.value)))
+    points = [(ref, 100.0 * (shown - ref) / abs(ref)) for ref, shown in pairs
+              if ref is not None and shown is not None and ref != 0]
+    if len(points) < 2:
+        return None
+    cls = str(data.params.get("accuracy_class", "2")).strip()
+    try:
+        limit = class_limit_pct(cls, 1.0, 1.0)
+    except ValueError:
+        limit = None
+    caption = (f"Each point is the diverter's displayed grid power against the reference "
+               f"instrument's, as (diverter − reference)/|reference|; dashed red: the "
+               f"IEC 62053-21 class {cls} limit at unity power factor (from memory, a field "
+               "guide). Result: " + data.result.reason)
+    return (charts.metering(points, limit, "Diverter metering against the reference"),
+            caption)

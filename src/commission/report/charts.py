@@ -198,3 +198,36 @@ def temperature_curve(series: list[tuple[str, Sequence[tuple[float, float]], obj
     _label(d, 2, HEIGHT + 12, "temperature [°C]")
     _label(d, lp.x + lp.width / 2, 10, x_label, anchor="middle")
     return d
+
+
+def metering(points: Sequence[tuple[float, float]], limit_pct: float | None,
+             title: str) -> Drawing:
+    """The diverter's reading against the reference: error of each point [%] against the
+    reference power [W], with the accuracy class limits as dashed lines."""
+    d = _drawing(WIDTH, HEIGHT + 40)
+    lp = _plot(50, 35, WIDTH - 165, HEIGHT - 35)
+    pts = [(float(x), float(y)) for x, y in points]
+    lp.data = [pts]
+    ys = [y for _, y in pts] + ([limit_pct, -limit_pct] if limit_pct else [0.0])
+    _ranges(lp, [x for x, _ in pts] + [0.0], ys)
+    lp.lines[0].symbol = makeMarker("Circle", size=3.5, fillColor=ORANGE, strokeColor=ORANGE)
+    lp.lines[0].strokeWidth = 0.01
+    lp.lines[0].strokeColor = None
+    d.add(lp)
+    _frame(d, lp.x, lp.y, lp.width, lp.height)
+    span = lp.yValueAxis.valueMax - lp.yValueAxis.valueMin
+    hlines = [("0 %", 0.0, GREY)]
+    if limit_pct:
+        hlines += [(f"+{limit_pct:g} % class", limit_pct, RED),
+                   (f"−{limit_pct:g} % class", -limit_pct, RED)]
+    for label, y, colour in hlines:
+        yy = lp.y + (y - lp.yValueAxis.valueMin) / span * lp.height
+        d.add(Line(lp.x, yy, lp.x + lp.width, yy, strokeColor=colour, strokeWidth=0.8,
+                   strokeDashArray=[3, 2]))
+        _label(d, lp.x + lp.width + 4, yy - 3, label, colour=colour)
+    _label(d, lp.x + lp.width + 4, HEIGHT + 4, "• diverter reading", colour=ORANGE)
+    _label(d, 2, HEIGHT + 28, title)
+    _label(d, 2, HEIGHT + 12, "error of the diverter's reading [%]")
+    _label(d, lp.x + lp.width / 2, 10, "reference grid power [W] (positive = import)",
+           anchor="middle")
+    return d

@@ -58,6 +58,14 @@ def lines(c) -> list[tuple[str, str]]:
             "power your panels would otherwise send to the grid; a timed boost, where set, "
             "heats the water from the grid at the times shown so that it is hot on dull days "
             "too."), text=role("settings"))
+    meaning = _forced_modes(c)
+    if meaning == "power":
+        add(_("The boost percentages"), _("on this diverter a forced setting means a share of "
+            "the heater's power: 20 % gives a fifth of its power."))
+    elif meaning == "time":
+        add(_("The boost percentages"), _("on this diverter a forced setting means a share of "
+            "time within each mains cycle, not of power: 20 % gives only about 5 % of the "
+            "heater's power, 50 % gives half, 80 % about 95 %."))
     add(_("If the RCD trips"), _("(the safety switch that cuts the power when current leaks "
         "to earth) switch off the diverter, then switch the RCD back on. If it trips again, "
         "leave it off and call {who}."), who=who)
@@ -84,6 +92,32 @@ def lines(c) -> list[tuple[str, str]]:
     contact = ", ".join(x for x in (who, d.get("installer_address"), phone) if x)
     add(_("Whom to call"), "{text}", text=contact)
     return out
+
+
+def _forced_modes(c) -> str | None:
+    """'power' or 'time': what the forced-mode percentages mean, from the readings of the
+    item declaring the role (its check's inputs), or None when undetermined."""
+    from ..checks.output import POWER_LAW, TIME_LAW, forced_mode_law
+
+    for r in c.results:
+        if r.item.report.homeowner != "forced_modes" or not (r.answered and r.applicable):
+            continue
+        if r.item.check is None or r.item.check.name != "forced_mode_law" or \
+                r.verdict != "pass":
+            return None
+        values = []
+        for name in ("p20", "p50"):
+            other = c.result(r.item.check.inputs.get(name))
+            if other is None or not other.answered:
+                return None
+            values.append(float(other.entry.value))
+        tolerance = float(r.item.check.params.get("tolerance_pct", 3.0)) / 100.0
+        try:
+            law, _fit = forced_mode_law(values[0], values[1], float(r.entry.value), tolerance)
+        except (TypeError, ValueError):
+            return None
+        return law if law in (POWER_LAW, TIME_LAW) else None
+    return None
 
 
 def homeowner_flowables(c) -> list[Any]:

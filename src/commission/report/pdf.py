@@ -287,16 +287,20 @@ def _summary(c: _Context) -> list:
 
 def _instruments(c: _Context) -> list:
     used = {e.instrument_id for e in c.state.entries if e.instrument_id}
-    rows = [[_p(h, c.st["cellb"]) for h in ("Serial", "Make", "Model", "Calibration due")]]
+    rows = [[_p(h, c.st["cellb"]) for h in ("Serial", "Make", "Model", "Calibration due",
+                                            "Stated accuracy")]]
     for i in sorted(used):
         inst = c.state.instruments.get(i)
         if inst:
+            read_as = "a bound" if inst.accuracy_read_as == "bound" else "U at k = 2"
+            accuracy = (f"{inst.accuracy} (read as {read_as})" if inst.accuracy
+                        else "none stated: no uncertainty applied")
             rows.append([_p(x, c.st["cell"]) for x in
-                         (inst.serial, inst.make, inst.model, inst.calibration_due)])
+                         (inst.serial, inst.make, inst.model, inst.calibration_due, accuracy)])
     out = [_p(c.heading("instruments", "Instruments used"), c.st["h1"])]
     if len(rows) == 1:
         return [*out, _p("No reading names an instrument.", c.st["base"])]
-    return [*out, _table(rows, [100, 110, 170, 100])]
+    return [*out, _table(rows, [70, 60, 110, 70, 170])]
 
 
 def _verdict_cell(verdict: str, st) -> Any:

@@ -106,8 +106,10 @@ def entries_from_record(data: dict[str, Any]) -> tuple[list[Entry], dict[int, In
     instruments: dict[int, Instrument] = {}
     by_serial: dict[str, int] = {}
     for n, inst in enumerate(data.get("instruments", []), start=1):
+        acc = inst.get("accuracy") or {}
         instruments[n] = Instrument(n, inst["serial"], inst["make"], inst["model"],
-                                    inst["calibration_due"], "")
+                                    inst["calibration_due"], "", str(acc.get("text", "")),
+                                    str(acc.get("read_as", "")))
         by_serial[inst["serial"]] = n
     entries = [
         Entry(int(e["seq"]), e["uuid"], e["item"], e["action"], e["raw"], e["value"],

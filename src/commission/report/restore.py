@@ -40,8 +40,10 @@ def restore(reg: Register, data: dict[str, Any], files: dict[str, bytes]) -> tup
     known = {i.serial for i in reg.instruments()}
     for inst in data.get("instruments", []):
         if inst["serial"] not in known:
+            acc = inst.get("accuracy") or {}
             reg.add_instrument(inst["serial"], inst["make"], inst["model"],
-                               inst["calibration_due"])
+                               inst["calibration_due"], acc.get("text", ""),
+                               acc.get("read_as", ""))
             known.add(inst["serial"])
     details = job_data.get("original") or {
         k: job_data.get(k, "") for k in ("site", "address", "client", "installer",
@@ -111,6 +113,16 @@ def _check_shape(data: Any) -> None:
     for inst in data.get("instruments", []):
         if not all(text(inst.get(k)) for k in ("serial", "make", "model", "calibration_due")):
             raise bad("instrument")
+        if "accuracy" in inst:
+            from ..accuracy import parse_accuracy
+
+            acc = inst["accuracy"]
+            try:
+                if not isinstance(acc, dict):
+                    raise ValueError("not an object")
+                parse_accuracy(str(acc.get("text", "")), str(acc.get("read_as", "")))
+            except ValueError:
+                raise bad("instrument accuracy") from None
     if not all(text(m.get("sha256")) for m in data.get("files", [])):
         raise bad("file list")
     if "entries" not in data:
