@@ -21,6 +21,7 @@ from commission.physics.threephase import (
     phase_sequence,
     place_clamps,
     sequence_components,
+    unbalance_from_line_voltages,
     voltage_unbalance,
 )
 
@@ -226,3 +227,17 @@ def test_bad_arguments_are_refused():
         analyse_three_phase(RATE, [_wave(t, 230, 0)] * 2, [_wave(t, 1, 0)])
     with pytest.raises(ValueError, match="load must be"):
         place_clamps([1 + 0j], assumed_voltage_phasors(230 + 0j), load="some")
+
+
+@pytest.mark.parametrize(("rms", "angles"), UNBALANCED[:2])
+def test_unbalance_from_line_magnitudes_matches_symmetrical_components(rms, angles):
+    """The line-to-line route (used on spot readings) against Fortescue's |V2|/|V1| of the
+    test's phasors, computed here directly with a = exp(j 2 pi/3)."""
+    ph = [cmath.rect(r, math.radians(a)) for r, a in zip(rms, angles, strict=True)]
+    a = cmath.exp(2j * math.pi / 3)
+    want = abs(ph[0] + a * a * ph[1] + a * ph[2]) / abs(ph[0] + a * ph[1] + a * a * ph[2])
+    got = unbalance_from_line_voltages(abs(ph[0] - ph[1]), abs(ph[1] - ph[2]),
+                                       abs(ph[2] - ph[0]))
+    assert got == pytest.approx(want, abs=1e-9)
+    with pytest.raises(ValueError, match="triangle"):
+        unbalance_from_line_voltages(400, 40, 40)

@@ -196,6 +196,13 @@ def parse(text: str, name: str, *, checks: Registry, strict: bool = False) -> Lo
                                       "version, rules and sections")])
     for path, key, line in tree.duplicates:
         problems.append(Problem(name, line, _item_id(data, path), f"duplicate key '{key}'"))
+    sections = data.get("sections")
+    if isinstance(sections, list) and any(isinstance(s, dict) and "include" in s
+                                          for s in sections):
+        n = next(k for k, s in enumerate(sections) if isinstance(s, dict) and "include" in s)
+        raise ChecklistError([Problem(name, tree.line(("sections", n)), "-",
+                                      "included sections are resolved when a checklist file "
+                                      "is loaded; this text must hold them itself")])
 
     try:
         checklist = Checklist.model_validate(data)
@@ -311,8 +318,16 @@ def add_check_problems(item: Item, items: dict[str, Item], add, checks: Registry
             add(("check", "params", key), f"parameter '{key}' must be a number, got {value!r}")
 
 def load(path: str | Path, *, checks: Registry, strict: bool = True) -> Loaded:
-    """Read and validate a checklist file (with the rules for checklists in use now)."""
-    p = Path(path)
+    """Read and validate a checklist file (with the rules for checklists in use now), with
+    its included sections resolved.
+
+    The text kept (and hashed, and stored with a job) is the resolved one, so a job or a
+    record always holds one self-contained checklist.
+    """
+    return _load(Path(path), (), checks, strict)
+
+
+def _load(p: Path, stack: tuple[Path, ...], checks: Registry, strict: bool) -> Loaded:
     try:
         raw = p.read_bytes()
     except FileNotFoundError:
@@ -326,4 +341,197 @@ def load(path: str | Path, *, checks: Registry, strict: bool = True) -> Loaded:
     except UnicodeDecodeError as exc:
         raise ChecklistError([Problem(str(p), raw[: exc.start].count(b"\n") + 1, "-",
                                       "not UTF-8 text")]) from None
-    return parse(text, str(p), checks=checks, strict=strict)
+    resolved, origins = _compose(text, p, stack, checks)
+    if origins is None:
+        return parse(text, str(p), checks=checks, strict=strict)
+    try:
+        return parse(resolved, str(p), checks=checks, strict=strict)
+    except ChecklistError as exc:
+        raise ChecklistError(sorted((_moved(pr, origins, str(p)) for pr in exc.problems),
+                                    key=lambda pr: (pr.file != str(p), pr.file, pr.line))
+                             ) from None
+
+
+# -- composition: sections included from another checklist ---------------------------------
+#
+#   sections:
+#     - include: {checklist: diverter-1ph, section: isolation}
+#
+# `checklist` is a shipped name, a file beside this one (NAME.yaml), or a relative path
+# ending in .yaml. The included file is loaded and validated on its own first (so its own
+# includes resolve too); then its section's text is copied in place of the entry, re-indented,
+# under a comment naming where it came from, and the whole is validated like any checklist.
+# Problems found in copied lines name the included file and its line.
+
+_INCLUDE_KEYS = {"checklist", "section"}
+
+
+def _moved(problem: Problem, origins: list[tuple[str, int]], name: str) -> Problem:
+    if problem.file != name or not 1 <= problem.line <= len(origins):
+        return problem
+    file, line = origins[problem.line - 1]
+    return Problem(file, line, problem.item, problem.message)
+
+
+def _include_target(name: str, base: Path) -> Path | None:
+    from ..resources import shipped
+
+    if "/" in name or "\\" in name or name.endswith((".yaml", ".yml")):
+        candidate = base.parent / name
+        return candidate if candidate.is_file() else None
+    beside = base.parent / f"{name}.yaml"
+    if beside.is_file():
+        return beside
+    return shipped("checklists").get(name)
+
+
+def _dash_column(line: str, column: int) -> int | None:
+    """Column of the '-' that opens the block sequence entry starting at ``column``."""
+    head = line[:column]
+    if head.strip() != "-":
+        return None
+    return head.index("-")
+
+
+def _span(lines: list[str], node: yaml.Node) -> tuple[int, int]:
+    """0-based [first, last) lines of a block node, trailing blank lines left out."""
+    first, end = node.start_mark.line, node.end_mark.line
+    if end < len(lines) and lines[end][: node.end_mark.column].strip():
+        end += 1
+    while end > first + 1 and not lines[end - 1].strip():
+        end -= 1
+    return first, end
+
+
+def _compose(text: str, path: Path, stack: tuple[Path, ...], checks: Registry
+             ) -> tuple[str, list[tuple[str, int]] | None]:
+    """The text with every ``include`` entry replaced by the section it names, and for every
+    line of the result the (file, line) it came from; (text, None) when nothing is included."""
+    if "include" not in text:
+        return text, None
+    try:
+        root = yaml.compose(text, Loader=_COMPOSER)
+    except yaml.YAMLError:
+        return text, None  # parse() reports the syntax error with its line
+    if not isinstance(root, yaml.MappingNode):
+        return text, None
+    sections = next((v for k, v in root.value
+                     if isinstance(k, yaml.ScalarNode) and k.value == "sections"), None)
+    if not isinstance(sections, yaml.SequenceNode):
+        return text, None
+    name = str(path)
+    lines = text.splitlines()
+    problems: list[Problem] = []
+    replacements: list[tuple[int, int, list[str], list[tuple[str, int]]]] = []
+    me = path.resolve()
+    for entry in sections.value:
+        if not isinstance(entry, yaml.MappingNode):
+            continue
+        keys = {k.value: v for k, v in entry.value if isinstance(k, yaml.ScalarNode)}
+        if "include" not in keys:
+            continue
+        line = entry.start_mark.line + 1
+
+        def bad(message: str, _line: int = line) -> None:
+            problems.append(Problem(name, _line, "-", message))
+
+        spec = keys["include"]
+        if len(entry.value) != 1:
+            bad("an include entry holds only 'include: {checklist: NAME, section: ID}'")
+            continue
+        if not isinstance(spec, yaml.MappingNode):
+            bad("include needs a mapping: include: {checklist: NAME, section: ID}")
+            continue
+        fields = {k.value: v.value for k, v in spec.value
+                  if isinstance(k, yaml.ScalarNode) and isinstance(v, yaml.ScalarNode)}
+        if set(fields) != _INCLUDE_KEYS or len(spec.value) != 2 or \
+                not all(isinstance(v, str) and v for v in fields.values()):
+            bad("include needs exactly 'checklist' (a shipped name or a file beside this one) "
+                "and 'section' (a section id), both as text")
+            continue
+        target = _include_target(fields["checklist"], path)
+        if target is None:
+            from ..resources import shipped
+
+            bad(f"included checklist '{fields['checklist']}' not found beside this file nor "
+                f"shipped (shipped: {', '.join(sorted(shipped('checklists'))) or 'none'})")
+            continue
+        if target.resolve() == me or target.resolve() in stack:
+            chain = " → ".join(q.name for q in (*stack, me, target.resolve()))
+            bad(f"include cycle: {chain}")
+            continue
+        dash = _dash_column(lines[entry.start_mark.line], entry.start_mark.column)
+        if dash is None:
+            bad("write an include as a block entry of 'sections' ('- include: {...}')")
+            continue
+        included = _load(target, (*stack, me), checks, True)
+        inc_text = included.text
+        inc_lines = inc_text.splitlines()
+        inc_root = yaml.compose(inc_text, Loader=_COMPOSER)
+        inc_sections = next(v for k, v in inc_root.value if k.value == "sections")
+        found = None
+        for node in inc_sections.value:
+            ids = [v.value for k, v in node.value if k.value == "id"]
+            if ids == [fields["section"]]:
+                found = node
+        if found is None:
+            known = ", ".join(s.id for s in included.checklist.sections)
+            bad(f"checklist '{fields['checklist']}' has no section '{fields['section']}' "
+                f"(sections: {known})")
+            continue
+        first, end = _span(inc_lines, found)
+        inc_dash = _dash_column(inc_lines[first], found.start_mark.column)
+        if inc_dash is None:
+            bad(f"section '{fields['section']}' of '{fields['checklist']}' is not a block entry")
+            continue
+        shift = dash - inc_dash
+        block = []
+        for raw in inc_lines[first:end]:
+            if not raw.strip():
+                block.append("")
+            elif shift >= 0:
+                block.append(" " * shift + raw)
+            elif raw[:-shift].strip():
+                block = []
+                break
+            else:
+                block.append(raw[-shift:])
+        if not block:
+            bad(f"section '{fields['section']}' of '{fields['checklist']}' is indented less "
+                "than this include; indent it as this file does")
+            continue
+        header = (f"{' ' * dash}# included: section '{fields['section']}' of "
+                  f"{included.checklist.id} {included.checklist.version} "
+                  f"(sha256 {included.sha256[:16]})")
+        inc_origins = _origins_of(target, inc_text, checks)
+        block_origins = [(name, line)] + [inc_origins[n] for n in range(first, end)]
+        span = _span(lines, entry)
+        replacements.append((span[0], span[1], [header, *block], block_origins))
+    if problems:
+        raise ChecklistError(problems)
+    if not replacements:
+        return text, None
+    out: list[str] = []
+    origins: list[tuple[str, int]] = []
+    pos = 0
+    for first, end, block, block_origins in replacements:
+        out += lines[pos:first]
+        origins += [(name, n + 1) for n in range(pos, first)]
+        out += block
+        origins += block_origins
+        pos = end
+    out += lines[pos:]
+    origins += [(name, n + 1) for n in range(pos, len(lines))]
+    return "\n".join(out) + "\n", origins
+
+
+def _origins_of(path: Path, resolved_text: str, checks: Registry) -> list[tuple[str, int]]:
+    """(file, line) of every line of a resolved checklist text (its own lines when it
+    includes nothing; otherwise recomposed to find them)."""
+    raw = path.read_text(encoding="utf-8")
+    if raw == resolved_text:
+        return [(str(path), n + 1) for n in range(len(raw.splitlines()))]
+    text, origins = _compose(raw, path, (), checks)
+    if origins is None or text != resolved_text:
+        return [(str(path), n + 1) for n in range(len(resolved_text.splitlines()))]
+    return origins

@@ -15,6 +15,7 @@ from . import (  # noqa: F401  (registers the checks)
     protection,
     recordings,
     supply,
+    threephase,
 )
 from .registry import CHECKS, FAIL, NA, PASS, PENDING, REVIEW, worst
 

@@ -18,11 +18,19 @@ def _due(value: object) -> str:
     return text
 
 
+SCENARIOS = {"single-phase": "", "three-phase": "threephase"}  # name -> folder under demo/
+
+
 def demo(
     out: Annotated[
         Path | None,
         typer.Option(help="Folder for the demo (default: a new temporary folder)."),
     ] = None,
+    scenario: Annotated[
+        str,
+        typer.Option(help="Which invented site: single-phase (Larch House) or three-phase "
+                     "(Quarry Lodge)."),
+    ] = "single-phase",
 ) -> None:
     """Run the bundled demo: walk an invented job, write its signed record and verify it."""
     import os
@@ -42,6 +50,10 @@ def demo(
     from ..walk.answers import apply_answers
     from ..walk.state import JobState
 
+    if scenario not in SCENARIOS:
+        raise UserError(f"--scenario: {scenario!r} is not a demo scenario (accepted: "
+                        f"{', '.join(SCENARIOS)})")
+    here = demo_dir() / SCENARIOS[scenario]
     folder = Path(out) if out else Path(tempfile.mkdtemp(prefix="commission-demo-"))
     try:
         folder.mkdir(parents=True, exist_ok=True)
@@ -52,9 +64,9 @@ def demo(
     if register.exists():
         raise UserError(f"{register}: already exists; give --out a new folder")
     os.environ["COMMISSION_HOME"] = str(folder)  # identity and trust store live here
-    scenario = yaml.safe_load((demo_dir() / "scenario.yaml").read_text(encoding="utf-8"))
-    details = scenario["job"]
-    loaded = load(resolve("checklists", scenario["checklist"]), checks=CHECKS)
+    plan = yaml.safe_load((here / "scenario.yaml").read_text(encoding="utf-8"))
+    details = plan["job"]
+    loaded = load(resolve("checklists", plan["checklist"]), checks=CHECKS)
     passphrase_file = folder / "demo-passphrase.txt"
     passphrase_file.write_text(DEMO_PASSPHRASE + "\n", encoding="utf-8")
     passphrase_file.chmod(0o600)
@@ -63,22 +75,24 @@ def demo(
                                         passphrase=DEMO_PASSPHRASE, years=5)
     trust.add(ident.cert_file, "demo installer")
     with Register(register) as reg:
-        for inst in scenario["instruments"]:
+        for inst in plan["instruments"]:
             reg.add_instrument(inst["serial"], inst["make"], inst["model"],
                                _due(inst["calibration_due"]), inst.get("accuracy", ""),
                                inst.get("accuracy_as", ""))
         job = reg.create_job(loaded, details, by="demo")
         state = JobState(reg, job)
-        report = apply_answers(state, demo_dir() / scenario["answers"])
-        # The 10-minute voltage capture is made now, not shipped (2.5 MB of invented data).
-        from ..demo.voltage import write_capture
+        report = apply_answers(state, here / plan["answers"])
+        if scenario == "single-phase":
+            # The 10-minute voltage capture is made now, not shipped (2.5 MB of invented data).
+            from ..demo.voltage import write_capture
 
-        write_capture(folder / "supply-voltage.wav")
-        made_now = folder / "demo-answers-generated.yaml"
-        made_now.write_text("flicker.capture: {file: supply-voltage.wav}\n", encoding="utf-8")
-        more = apply_answers(state, made_now)
-        report.added += more.added
-        report.rejected.extend(more.rejected)
+            write_capture(folder / "supply-voltage.wav")
+            made_now = folder / "demo-answers-generated.yaml"
+            made_now.write_text("flicker.capture: {file: supply-voltage.wav}\n",
+                                encoding="utf-8")
+            more = apply_answers(state, made_now)
+            report.added += more.added
+            report.rejected.extend(more.rejected)
         for item_id, message in report.rejected:
             typer.echo(f"{item_id}: {message}", err=True)
         made = make(state, load_form(resolve("forms", "handover")), sign=True,

@@ -13,6 +13,7 @@ Public names:
 
 * :func:`sequence_components` -- zero, positive and negative sequence of three phasors.
 * :func:`voltage_unbalance` -- u2 = |V2|/|V1| (IEC 61000-4-30).
+* :func:`unbalance_from_line_voltages` -- the same from three line-to-line magnitudes.
 * :func:`phase_sequence` -- ``'L1-L2-L3'`` or ``'L1-L3-L2'`` from three voltage phasors.
 * :func:`assumed_voltage_phasors` -- L2 and L3 inferred at -+120 deg from one reference.
 * :func:`neutral_current` -- the neutral phasor from the phase currents.
@@ -127,6 +128,45 @@ def voltage_unbalance(va: complex, vb: complex, vc: complex) -> float:
     if abs(v1) == 0.0:
         raise ValueError("the positive-sequence voltage is zero: no three-phase voltage")
     return abs(v2) / abs(v1)
+
+
+def unbalance_from_line_voltages(u12: float, u23: float, u31: float) -> float:
+    """Voltage unbalance u2 from the magnitudes of the three line-to-line voltages.
+
+    The three magnitudes fix the triangle of line voltages, and so |V2|/|V1| [1]_:
+    u2 = sqrt((1 - sqrt(3 - 6 beta)) / (1 + sqrt(3 - 6 beta))) with
+    beta = (U12^4 + U23^4 + U31^4) / (U12^2 + U23^2 + U31^2)^2. Lets a spot reading of
+    three line-to-line voltages with a multimeter be judged without phase angles.
+
+    Parameters
+    ----------
+    u12, u23, u31 : float
+        RMS line-to-line voltages (fundamental, or true RMS on a clean supply) [V].
+
+    Returns
+    -------
+    float
+        u2 [1].
+
+    Raises
+    ------
+    ValueError
+        The three values cannot be the sides of a triangle (not the line voltages of one
+        three-phase supply: a typing slip, or a phase missing).
+
+    References
+    ----------
+    .. [1] IEC 61000-4-30:2015, 5.7.1, the formula for u2 from line-to-line values (from
+       memory).
+    """
+    sides = sorted(float(x) for x in (u12, u23, u31))
+    if sides[0] <= 0 or sides[0] + sides[1] <= sides[2]:
+        raise ValueError(f"{u12:g}, {u23:g} and {u31:g} V cannot be the three line-to-line "
+                         "voltages of one supply (they do not form a triangle)")
+    sq = [x * x for x in sides]
+    beta = sum(x * x for x in sq) / sum(sq) ** 2
+    root = math.sqrt(max(0.0, 3.0 - 6.0 * beta))
+    return math.sqrt(max(0.0, 1.0 - root) / (1.0 + root))
 
 
 def phase_sequence(va: complex, vb: complex, vc: complex) -> str:
