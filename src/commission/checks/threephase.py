@@ -25,7 +25,8 @@ from .registry import (
 )
 
 if TYPE_CHECKING:
-    from ..physics.threephase import ClampPlacement, ThreePhaseAnalysis
+    from ..analyses.threephase import ThreePhaseCaptureResult
+    from ..physics.threephase import ClampPlacement
 
 SIGN = ("positive power = import, per phase and in sum, for clamps on the incoming line "
         "conductors with their arrows pointing into the premises")
@@ -154,25 +155,13 @@ _LOADS = {"all": "all", "one": "one", "unknown": "unknown",
 _PROBE_UNBALANCE = 0.3
 
 
-def analyse_threephase_capture(path) -> ThreePhaseAnalysis:
-    """Read a three-phase CSV capture and analyse it (one computation for every reader)."""
-    from ..captures.threephase_csv import read_threephase_capture_csv
-    from ..physics.threephase import analyse_three_phase
-
-    cap = read_threephase_capture_csv(path)
-    return analyse_three_phase(cap.sample_rate_hz, cap.voltages_v, cap.currents_a,
-                               neutral_a=cap.neutral_a)
-
-
-def judge_clamps(a: ThreePhaseAnalysis, *, load: str = "all", expect: str = "import",
-                 site_sequence: str | None = None, tolerance_deg: float = 20.0,
-                 min_current_fraction: float = 0.1) -> tuple[str, str, list[str]]:
+def judge_clamps(r: ThreePhaseCaptureResult, *, site_sequence: str | None = None
+                 ) -> tuple[str, str, list[str]]:
     """Verdict, one-line reason and the per-clamp instructions for a three-phase capture."""
-    from ..physics.threephase import POSITIVE, place_clamps
+    from ..physics.threephase import POSITIVE
 
-    placed = place_clamps([c.current_phasor for c in a.clamps], a.voltage_phasors,
-                          expect=expect, load=load, tolerance_deg=tolerance_deg,
-                          min_current_fraction=min_current_fraction)
+    a = r.figures
+    placed = r.placements
     assumed = not a.sequence_measured
     lines = [clamp_instruction(p, sequence_assumed=assumed) for p in placed]
     plain = [clamp_instruction(p) for p in placed]
@@ -222,26 +211,41 @@ def clamp_phase_capture(ctx: Context) -> Outcome:
         raise ValueError(f"load {load_text!r} is not one of: {', '.join(_LOADS)}")
     expect = str(ctx.input("expect")) if ctx.has("expect") else "import"
     site = str(ctx.input("sequence")) if ctx.has("sequence") else None
-    path = ctx.file_path(ctx.value)
-
-    def run():
-        from ..captures import CaptureError
-
-        try:
-            return analyse_threephase_capture(path)
-        except (CaptureError, ValueError) as exc:
-            return ValueError(str(exc))
-
-    a = ctx.memo(("threephase-capture", ctx.value["sha256"]), run)
-    if isinstance(a, Exception):
-        raise a
-    verdict, reason, _ = judge_clamps(
-        a, load=load, expect=expect, site_sequence=site,
-        tolerance_deg=float(ctx.param("tolerance_deg")),
-        min_current_fraction=float(ctx.param("min_current_fraction")))
+    tolerance = float(ctx.param("tolerance_deg"))
+    fraction = float(ctx.param("min_current_fraction"))
+    r = capture_result(ctx, ctx.value, load=load, expect=expect, tolerance_deg=tolerance,
+                       min_current_fraction=fraction)
+    verdict, reason, _ = judge_clamps(r, site_sequence=site)
+    a = r.figures
     return Outcome(verdict, f"{reason}; net {a.p_total_w:+.0f} W ({SIGN})", SRC_CLAMP_ANGLES,
                    Measured(round(a.p_total_w, 1), "W"),
                    Expected(None, value="clamp k on Lk, arrow into the premises"))
+
+
+def capture_result(ctx: Context, value: Any, *, load: str = "all", expect: str = "import",
+                   tolerance_deg: float = 20.0, min_current_fraction: float = 0.1
+                   ) -> ThreePhaseCaptureResult:
+    """The one analysis of a recorded three-phase capture, memoised per file and settings
+    (the check and the record's table and phasor diagram read the same object)."""
+    from ..analyses.threephase import analyse_threephase_capture
+    from ..captures import CaptureError
+
+    path = ctx.file_path(value)
+    name = str(value.get("name", "capture"))
+
+    def run():
+        try:
+            return analyse_threephase_capture(path, load=load, expect=expect, name=name,
+                                              tolerance_deg=tolerance_deg,
+                                              min_current_fraction=min_current_fraction)
+        except (CaptureError, ValueError) as exc:
+            return ValueError(str(exc))
+
+    result = ctx.memo(("threephase-capture", value["sha256"], load, expect, tolerance_deg,
+                       min_current_fraction), run)
+    if isinstance(result, Exception):
+        raise result
+    return result
 
 
 # -- what the diverter regulates --------------------------------------------------------------
