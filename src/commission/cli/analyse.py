@@ -223,6 +223,11 @@ CAPTURE_HELP = (
     "mains, DC offset, and a capture that starts and ends mid-cycle; at least two whole "
     "cycles are needed. The clamp verdict is only meaningful with a mostly resistive load "
     "and the diverter off or at full output."
+    "\n\n"
+    "Three-phase CSV (voltage_l1_v, optionally voltage_l2_v and voltage_l3_v; current_1_a "
+    "to current_3_a, clamp k meant for Lk; optionally current_n_a): per-phase figures, phase "
+    "sequence, voltage unbalance, neutral current, the net total and where each clamp is. "
+    "With one voltage the sequence is assumed L1-L2-L3 and said so."
     "\n\n" + SIGN_CONVENTION + "\n\n" + AUDIO_INPUT_WARNING
 )
 
@@ -263,15 +268,40 @@ def capture(
     windows: Annotated[bool, typer.Option(
         "--windows", help="Also give V, I and P of every ~200 ms window "
         "(10 cycles at 50 Hz, 12 at 60 Hz).")] = False,
+    load: Annotated[str | None, typer.Option(
+        "--load", metavar="all|one|unknown", show_default=False,
+        help="Three-phase CSV (voltage_l1_v..., current_1_a...): what ran during the "
+        "capture, to place the clamps (default all: load on every phase).")] = None,
     as_json: JsonOpt = False,
 ) -> None:
     """Analyse a voltage and current capture (help text: CAPTURE_HELP)."""
     from ..errors import UserError
+    from . import analyse_3ph
 
     if expect is not None and expect.strip().lower() not in ("import", "export"):
         raise UserError(f"--expect: {expect!r} is not accepted; give import or export")
     expected = None if expect is None else expect.strip().lower()
+    if load is not None and load.strip().lower() not in analyse_3ph.LOAD_WORDS:
+        raise UserError(f"--load: {load!r} is not accepted; give all, one or unknown")
     wav = _looks_like_wav(file)
+    if not wav and analyse_3ph.looks_three_phase(file):
+        for option, given in (("--v-scale", v_scale), ("--v-offset", v_offset),
+                              ("--i-scale", i_scale), ("--i-offset", i_offset),
+                              ("--channels", channels)):
+            if given is not None:
+                raise UserError(f"{option}: not available for three-phase captures; give the "
+                                "values in volts and amperes")
+        if windows:
+            raise UserError("--windows: not available for three-phase captures")
+        analyse_3ph.run(file, rate=_number(rate, "--rate", "the sample rate in hertz, e.g. "
+                                           "10000", positive=True),
+                        columns=_mapping(columns, analyse_3ph.COLUMNS_EXAMPLE),
+                        load=(load or "all").strip().lower(), expect=expected or "import",
+                        as_json=as_json)
+        return
+    if load is not None:
+        raise UserError(f"--load: applies to three-phase captures only; {file} has no "
+                        "per-phase columns (voltage_l1_v, current_1_a, ...)")
     if wav:
         for option, given in (("--rate", rate), ("--columns", columns),
                               ("--v-offset", v_offset), ("--i-offset", i_offset)):
