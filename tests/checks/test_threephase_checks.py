@@ -119,7 +119,7 @@ def test_regulation_target_follows_the_metering(target, meter, elements, clamps,
 
 @pytest.fixture
 def demo3(cli, new_job, tmp_path):
-    for serial in ("MFT-7731", "CLAMP-4410"):
+    for serial in ("MFT-7731", "CLAMP-4410", "ROT-118"):
         assert cli("instruments", "add", "--serial", serial, "--make", "K", "--model", "M",
                    "--calibration-due", "2099-12-31").exit_code == 0
     shutil.copytree(DEMO3 / "files", tmp_path / "files")
@@ -193,7 +193,7 @@ def test_one_voltage_capture_says_the_sequence_is_assumed(demo3):
     _capture_3ph(demo3.dir / "files" / "clamp-capture-3ph.csv", voltages=1)
     cap = _item(demo3(), "clamp.capture")
     assert cap["verdict"] == "pass" and "phase sequence assumed L1-L2-L3" in cap["reason"]
-    cap = _item(demo3({"supply.sequence: L1-L2-L3": "supply.sequence: L1-L3-L2"}),
+    cap = _item(demo3({"text: L1-L2-L3, instrument": "text: L1-L3-L2, instrument"}),
                 "clamp.capture")
     assert cap["verdict"] == "review" and "capture all three voltages" in cap["reason"]
 
