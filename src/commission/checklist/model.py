@@ -109,6 +109,9 @@ HOMEOWNER_ROLES = ("device", "location", "isolator", "settings", "lights", "keep
                    "heater_power", "store_volume", "water_regime", "forced_modes")
 
 
+PHASE_LABELS = ("L1", "L2", "L3", "N", "L1-L2", "L2-L3", "L3-L1")
+
+
 class ItemReport(Strict):
     """Where an item appears in the record besides the results table.
 
@@ -127,6 +130,19 @@ class ItemReport(Strict):
     chart: bool = Field(
         default=False, description="draw this item's check as a chart (where the check has one "
         "and its data exists)")
+    phase: Literal[PHASE_LABELS] | None = Field(  # type: ignore[valid-type]
+        default=None, description="the phase (or pair of phases) this item measures: "
+        + ", ".join(PHASE_LABELS) + "; needs 'measurement'")
+    measurement: str | None = Field(
+        default=None, min_length=1, description="title of the per-phase table this item is "
+        "a row of: items sharing it are printed as one table, one row per phase")
+
+    @model_validator(mode="after")
+    def _phase_pair(self) -> ItemReport:
+        if (self.phase is None) != (self.measurement is None):
+            raise ValueError("'phase' and 'measurement' go together: a per-phase table needs "
+                             "both its title and the row's phase")
+        return self
 
 
 class Interval(Strict):

@@ -155,6 +155,14 @@ _LOADS = {"all": "all", "one": "one", "unknown": "unknown",
 _PROBE_UNBALANCE = 0.3
 
 
+def clamp_load(text: str) -> str:
+    """'all', 'one' or 'unknown' from a checklist's answer or constant."""
+    load = _LOADS.get(text.strip().lower())
+    if load is None:
+        raise ValueError(f"load {text.strip()!r} is not one of: {', '.join(_LOADS)}")
+    return load
+
+
 def judge_clamps(r: ThreePhaseCaptureResult, *, site_sequence: str | None = None
                  ) -> tuple[str, str, list[str]]:
     """Verdict, one-line reason and the per-clamp instructions for a three-phase capture."""
@@ -205,10 +213,7 @@ def judge_clamps(r: ThreePhaseCaptureResult, *, site_sequence: str | None = None
     },
 )
 def clamp_phase_capture(ctx: Context) -> Outcome:
-    load_text = str(ctx.input("load")).strip()
-    load = _LOADS.get(load_text.lower())
-    if load is None:
-        raise ValueError(f"load {load_text!r} is not one of: {', '.join(_LOADS)}")
+    load = clamp_load(str(ctx.input("load")))
     expect = str(ctx.input("expect")) if ctx.has("expect") else "import"
     site = str(ctx.input("sequence")) if ctx.has("sequence") else None
     tolerance = float(ctx.param("tolerance_deg"))

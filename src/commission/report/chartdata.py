@@ -130,6 +130,61 @@ def _waveform(data: ChartInput) -> Drawn | None:
             f"{a.frequency_hz:.2f} Hz (IEEE 1459-2010; DFT per IEC 61000-4-7).")
 
 
+@chart("clamp_phase_capture")
+def _phasors(data: ChartInput) -> Drawn | None:
+    """The per-phase table of a three-phase capture and the phasor diagram of its
+    fundamentals, from the same analysis object the check judged."""
+    if data.path is None:
+        return None
+    from ..analyses.threephase import SIGN_CONVENTION, SRC_PER_PHASE, analyse_threephase_capture
+    from ..captures import CaptureError
+    from ..checks.threephase import clamp_load
+
+    try:
+        load = clamp_load(str(data.inputs.get("load") or "all"))
+        r = analyse_threephase_capture(
+            data.path, load=load, expect=str(data.inputs.get("expect") or "import"),
+            tolerance_deg=float(data.params.get("tolerance_deg", 20.0)),
+            min_current_fraction=float(data.params.get("min_current_fraction", 0.1)))
+    except (CaptureError, ValueError):
+        return None
+    a = r.figures
+
+    def num(x: float | None, spec: str) -> str:
+        if x is None or not math.isfinite(x):
+            return "—"
+        return format(0.0 if spec.endswith(".0f") and abs(x) < 0.5 else x, spec)
+
+    rows = [["clamp / phase", "V rms", "I rms", "P", "Q1", "PF", "cos φ1", "THD V", "THD I"],
+            ["", "V", "A", "W", "var", "", "", "%", "%"]]
+    for c in a.clamps:
+        rows.append([f"{c.clamp} / {c.phase}" + ("" if c.voltage_measured else " *"),
+                     num(c.v_rms, ".1f"), num(c.i_rms, ".2f"), num(c.p_w, "+.0f"),
+                     num(c.q1_var, "+.0f"), num(c.power_factor, ".3f"),
+                     num(c.displacement_pf, ".3f"), num(c.thd_v_pct, ".1f"),
+                     num(c.thd_i_pct, ".1f")])
+    rows.append(["net total", "", "", num(a.p_total_w, "+.0f"), "", "", "", "", ""])
+    volts = [(f"V{k + 1}", abs(z), math.degrees(math.atan2(z.imag, z.real)),
+              a.voltages_measured == 3 or k == 0) for k, z in enumerate(a.voltage_phasors)]
+    amps = [(f"I{c.clamp}", abs(c.current_phasor),
+             math.degrees(math.atan2(c.current_phasor.imag, c.current_phasor.real)))
+            for c in a.clamps]
+    notes = [SIGN_CONVENTION,
+             "Fundamental phasors (RMS), angles against V1; voltages and currents each to "
+             "their own scale."]
+    if not a.sequence_measured:
+        notes.append("One voltage captured: V2 and V3 inferred at -120° and +120° "
+                     "(sequence L1-L2-L3 assumed).")
+    drawing = charts.phasor_diagram(volts, amps, notes, rows)
+    seq = (f"sequence {a.sequence} measured" if a.sequence_measured
+           else "sequence L1-L2-L3 assumed (one voltage)")
+    unb = "" if r.unbalance_pct is None else f", voltage unbalance u2 {r.unbalance_pct:.2f} %"
+    caption = (f"Per phase: {SRC_PER_PHASE}; {seq}{unb}; neutral "
+               f"{abs(a.neutral_phasor):.2f} A fundamental (sum of the phase currents). "
+               "* = phase voltage inferred from L1.")
+    return drawing, caption
+
+
 @chart("harmonic_emission")
 def _harmonics(data: ChartInput) -> Drawn | None:
     from ..physics import phase_control

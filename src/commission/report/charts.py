@@ -14,7 +14,7 @@ from collections.abc import Sequence
 
 from reportlab.graphics.charts.barcharts import VerticalBarChart
 from reportlab.graphics.charts.lineplots import LinePlot
-from reportlab.graphics.shapes import Drawing, Line, Rect, String
+from reportlab.graphics.shapes import Circle, Drawing, Line, Polygon, Rect, String
 from reportlab.graphics.widgets.markers import makeMarker
 from reportlab.lib import colors
 
@@ -230,4 +230,84 @@ def metering(points: Sequence[tuple[float, float]], limit_pct: float | None,
     _label(d, 2, HEIGHT + 12, "error of the diverter's reading [%]")
     _label(d, lp.x + lp.width / 2, 10, "reference grid power [W] (positive = import)",
            anchor="middle")
+
+
+def _arrow(d: Drawing, cx: float, cy: float, length: float, angle_deg: float, colour,
+           dashed: bool = False) -> tuple[float, float]:
+    """A phasor from (cx, cy): a line with a filled head; returns its tip."""
+    a = math.radians(angle_deg)
+    x, y = cx + length * math.cos(a), cy + length * math.sin(a)
+    d.add(Line(cx, cy, x, y, strokeColor=colour, strokeWidth=1.4,
+               strokeDashArray=[3, 2] if dashed else None))
+    head = min(7.0, 0.35 * length)
+    if head > 1.0:
+        left = (x - head * math.cos(a - 0.4), y - head * math.sin(a - 0.4))
+        right = (x - head * math.cos(a + 0.4), y - head * math.sin(a + 0.4))
+        d.add(Polygon([x, y, *left, *right], fillColor=colour, strokeColor=colour,
+                      strokeWidth=0.5))
+    return x, y
+
+
+def phasor_diagram(voltages: Sequence[tuple[str, float, float, bool]],
+                   currents: Sequence[tuple[str, float, float]],
+                   notes: Sequence[str], table: Sequence[Sequence[str]] = ()) -> Drawing:
+    """Fundamental phasors: voltages ``(label, rms_v, angle_deg, measured)`` in blue (dashed
+    when inferred), currents ``(label, rms_a, angle_deg)`` in orange, angles against the
+    first voltage, counter-clockwise positive (leading). Voltages and currents each have
+    their own scale (the longest of each kind fills the circle); ``notes`` (sign
+    convention, scales) are printed at the right; ``table`` rows (header first, then a
+    units row) are printed above the diagram, the first column left-aligned."""
+    import textwrap
+
+    size = 230.0
+    row_h = SIZE + 3.5
+    top = len(table) * row_h + (8 if table else 0)
+    d = _drawing(WIDTH, size + 14 + top)
+    x0, y0 = 4.0, 8.0
+    if table:
+        first, other = 70.0, (WIDTH - 74.0) / max(1, len(table[0]) - 1)
+        y = size + 14 + top - row_h
+        for n, row in enumerate(table):
+            colour = INK if n > 1 else GREY
+            for k, cell in enumerate(row):
+                if k == 0:
+                    _label(d, x0, y, str(cell), colour=colour)
+                else:
+                    _label(d, x0 + first + k * other, y, str(cell), anchor="end",
+                           colour=colour)
+            if n == 1:
+                d.add(Line(x0, y - 3, WIDTH - 4, y - 3, strokeColor=GRID, strokeWidth=0.6))
+            y -= row_h
+    cx, cy, r = x0 + size / 2, y0 + size / 2, size / 2 - 36
+    for k in (0.5, 1.0):
+        d.add(Circle(cx, cy, r * k, fillColor=None, strokeColor=GRID, strokeWidth=0.6))
+    d.add(Line(cx - r - 10, cy, cx + r + 10, cy, strokeColor=GRID, strokeWidth=0.6))
+    d.add(Line(cx, cy - r - 10, cx, cy + r + 10, strokeColor=GRID, strokeWidth=0.6))
+    _frame(d, x0, y0, size, size)
+    v_max = max((m for _, m, _, _ in voltages), default=0.0) or 1.0
+    shown_i = [(label, m, ang) for label, m, ang in currents
+               if m > 0 and math.isfinite(m) and math.isfinite(ang)]
+    i_max = max((m for _, m, _ in shown_i), default=0.0) or 1.0
+    marks = [(label, m / v_max * r, ang, BLUE, not measured, f"{m:.0f} V")
+             for label, m, ang, measured in voltages]
+    marks += [(label, m / i_max * 0.7 * r, ang, ORANGE, False, f"{m:.1f} A")
+              for label, m, ang in shown_i]
+    for label, length, ang, colour, dashed, value in marks:
+        x, y = _arrow(d, cx, cy, length, ang, colour, dashed)
+        # voltages are labelled beyond their tip, currents beside theirs (a quarter turn
+        # clockwise), so a current in phase with its voltage keeps both labels readable
+        at = math.radians(ang if colour is BLUE else ang - 90.0)
+        lx, ly = x + 8 * math.cos(at), y + 8 * math.sin(at) - SIZE / 3
+        anchor = "start" if math.cos(at) > 0.35 else "end" if math.cos(at) < -0.35 else "middle"
+        ly = min(max(ly, y0 + 3), y0 + size - SIZE - 2)
+        d.add(String(lx, ly, f"{label} {value}", fontName=FONT, fontSize=SIZE,
+                     fillColor=colour, textAnchor=anchor))
+    tx, ty = x0 + size + 14, y0 + size - SIZE
+    for note in notes:
+        for line in textwrap.wrap(note, 44):
+            _label(d, tx, ty, line)
+            ty -= SIZE + 2.5
+        ty -= 4
+    _label(d, tx, y0 + 14, "blue: voltages (dashed: inferred)", colour=BLUE)
+    _label(d, tx, y0 + 2, "orange: clamp currents", colour=ORANGE)
     return d

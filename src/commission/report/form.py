@@ -13,8 +13,8 @@ from typing import Any, Literal
 from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_validator
 
 FORMAT = "commission-form/1"
-SECTIONS = ("status", "summary", "instruments", "results", "files", "photos", "charts",
-            "cautions", "homeowner", "signatures")
+SECTIONS = ("status", "summary", "instruments", "phases", "results", "files", "photos",
+            "charts", "cautions", "homeowner", "signatures")
 Section = Literal[SECTIONS]  # type: ignore[valid-type]
 
 

@@ -362,6 +362,45 @@ def _results(c: _Context) -> list:
     return out
 
 
+def _phases(c: _Context) -> list:
+    """One table per measurement the checklist marks per phase (``report: {phase,
+    measurement}``), one row per phase, in the checklist's order; nothing when none is."""
+    from reportlab.lib import colors
+    from reportlab.platypus import Table, TableStyle
+
+    groups: dict[str, list[Result]] = {}
+    for r in c.results:
+        spec = r.item.report
+        if spec.measurement is not None and r.applicable:
+            groups.setdefault(spec.measurement, []).append(r)
+    if not groups:
+        return []
+    out = [_p(c.heading("phases", "Per phase"), c.st["h1"]),
+           _p(SIGN_CONVENTION + " One table per measurement, one row per phase; every row "
+              "also appears with its section below.", c.st["small"])]
+    widths = [30, 100, 64, 44, 48, 44, 150]
+    for title, members in groups.items():
+        rows: list = [[_p(title, c.st["h2"])] + [""] * 6,
+                      [_p(h, c.st["cellb"]) for h in
+                       ("Phase", "Item", "Answer", "Figure", "Expected", "Verdict",
+                        "Reason · source")]]
+        for r in members:
+            rows.append([_p(r.item.report.phase or "", c.st["cellb"]),
+                         *_result_row(c, r, "")])
+        table = Table(rows, colWidths=widths, repeatRows=2, splitInRow=0)
+        table.setStyle(TableStyle([
+            ("SPAN", (0, 0), (-1, 0)), ("FONT", (0, 0), (-1, -1), FONT, 8),
+            ("VALIGN", (0, 0), (-1, -1), "TOP"),
+            ("LEFTPADDING", (0, 0), (-1, -1), 3), ("RIGHTPADDING", (0, 0), (-1, -1), 3),
+            ("TOPPADDING", (0, 0), (-1, -1), 2), ("BOTTOMPADDING", (0, 0), (-1, -1), 2),
+            ("TOPPADDING", (0, 0), (-1, 0), 8),
+            ("LINEBELOW", (0, 1), (-1, -1), 0.25, colors.HexColor("#d5dbe1")),
+            ("BACKGROUND", (0, 1), (-1, 1), colors.HexColor("#e8eef4")),
+        ]))
+        out.append(table)
+    return out
+
+
 def _result_row(c: _Context, r: Result, section_time: str) -> list:
     from reportlab.platypus import Paragraph
 
@@ -506,7 +545,8 @@ def _charts(c: _Context) -> list:
 
 
 _BUILDERS = {"status": _status, "summary": _summary, "instruments": _instruments,
-             "results": _results, "files": _files, "photos": _photos, "charts": _charts,
+             "phases": _phases, "results": _results, "files": _files, "photos": _photos,
+             "charts": _charts,
              "cautions": _cautions, "homeowner": _homeowner, "signatures": _signatures}
 assert set(_BUILDERS) == set(SECTIONS)
 
