@@ -147,3 +147,16 @@ def test_stored_text_with_an_include_is_refused():
     """An embedded/stored checklist must be self-contained: parse() never resolves."""
     with pytest.raises(ChecklistError, match="must hold them itself"):
         parse(MINI % "  - include: {checklist: diverter-1ph, section: isolation}", "stored")
+
+
+# The resolved text of each released version of diverter-3ph. An included section that
+# changes in diverter-1ph changes this text: bump diverter-3ph's version and add its hash.
+RELEASED_3PH = {"1.0.0": "3a998d8b920a2d64d8ad4d3287d8105ff4cae363790f302cdab28ce93c512474"}
+
+
+def test_three_phase_version_pins_its_resolved_text():
+    """SHA-256 (hashlib) of the resolved text against the hash released for its version."""
+    loaded = load(THREE)
+    assert RELEASED_3PH.get(loaded.checklist.version) == loaded.sha256, (
+        "diverter-3ph resolved to a new text (an included section changed?): bump its "
+        "version and add the new hash to RELEASED_3PH")
