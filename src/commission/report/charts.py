@@ -230,6 +230,7 @@ def metering(points: Sequence[tuple[float, float]], limit_pct: float | None,
     _label(d, 2, HEIGHT + 12, "error of the diverter's reading [%]")
     _label(d, lp.x + lp.width / 2, 10, "reference grid power [W] (positive = import)",
            anchor="middle")
+    return d
 
 
 def _arrow(d: Drawing, cx: float, cy: float, length: float, angle_deg: float, colour,
