@@ -60,6 +60,19 @@ def item_json(r: Result, instruments: dict[int, Instrument],
     }
 
 
+def judged_differently(state: JobState, results: list[Result]) -> list[dict[str, Any]]:
+    """For an imported job: items whose verdict in the imported record differs from
+    today's (a record judged by another check-logic version keeps its own verdicts)."""
+    from .checks.registry import CHECK_LOGIC_VERSION
+
+    recorded = state.job.recorded or {}
+    verdicts = recorded.get("verdicts") or {}
+    return [{"id": r.item.id, "recorded": verdicts[r.item.id], "now": r.verdict,
+             "recorded_check_logic": recorded.get("check_logic"),
+             "recorded_program": recorded.get("program"), "now_check_logic": CHECK_LOGIC_VERSION}
+            for r in results if r.item.id in verdicts and verdicts[r.item.id] != r.verdict]
+
+
 def job_json(state: JobState, results: list[Result] | None = None) -> dict[str, Any]:
     from .checks.evaluate import status_reasons
 
@@ -67,6 +80,8 @@ def job_json(state: JobState, results: list[Result] | None = None) -> dict[str, 
     uuids = {e.id: e.uuid for e in state.entries}
     return {
         "job": state.job.as_json(),
+        "unverified": state.job.unverified,
+        "judged_differently": judged_differently(state, results),
         "status": state.status(results),
         "status_reasons": status_reasons(results),
         "items": [item_json(r, state.instruments, uuids) for r in results],

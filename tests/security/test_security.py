@@ -194,7 +194,9 @@ def test_imported_attachment_names_cannot_escape(cli, demo, tmp_path, monkeypatc
     listed = attachments(open_pdf(pdf.read_bytes())[0])
     assert set(names) - {"evil\x00nul"} <= set(listed)  # the names really are in the PDF
 
-    imported = cli("import", pdf)
+    refused = cli("import", pdf)  # unsigned: refused before anything is read
+    assert refused.exit_code == 1 and "not imported" in refused.stderr
+    imported = cli("import", pdf, "--unverified")
     assert imported.exit_code in (0, 2), imported.output
     verified = cli("verify", pdf)
     assert verified.exit_code in (1, 2)  # unsigned and tampered: never a pass
@@ -216,7 +218,7 @@ def test_imported_attachment_names_cannot_escape(cli, demo, tmp_path, monkeypatc
 def test_import_of_a_genuine_record_restores_its_files(cli, demo, tmp_path):
     """The control for the test above: real attachments (named by their SHA-256) are
     restored, so the refusal is specific to names that are not their content's hash."""
-    out = cli("import", demo["pdf"])
+    out = cli("import", demo["pdf"], "--trust", demo["cert"])
     assert out.exit_code == 0, out.output
     n = len([m for m in _record_of(demo["pdf"])["files"] if m["attached"]])
     assert n > 0 and f"and {n} files" in out.stdout
@@ -259,9 +261,13 @@ def test_malformed_forged_record_is_one_error_line_and_nothing_half(cli, demo, t
     _break(record, case)
     pdf = tmp_path / "broken.pdf"
     pdf.write_bytes(_forged_pdf(record, {}))
-    result = cli("import", pdf)
+    refused = cli("import", pdf)  # unsigned: refused (exit 1), nothing written
+    assert refused.exit_code == 1 and len(refused.stderr.splitlines()) == 1
+    assert not Path(os.environ["COMMISSION_REGISTER"]).exists()
+    result = cli("import", pdf, "--unverified")  # read anyway: the record itself is refused
     assert result.exit_code == 2
     assert result.stderr.startswith("error: ") and len(result.stderr.splitlines()) == 1
+    assert not Path(os.environ["COMMISSION_REGISTER"]).exists()  # not even an empty file
     assert json.loads(cli("jobs", "--json").stdout) == []  # no half-imported job
     assert json.loads(cli("instruments", "list", "--json").stdout) == []
     assert cli("verify", pdf).exit_code in (1, 2)

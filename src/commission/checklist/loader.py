@@ -163,6 +163,53 @@ def _refine(loc: Path_, err: dict[str, Any]) -> Path_:
     return loc
 
 
+# Aliases make a YAML file a graph: a few lines can stand for billions of nodes
+# ("billion laughs"). Before anything is built, the composed graph is measured with each
+# node counted once per reference (memoised, so measuring is linear in the file), and
+# refused beyond these bounds. A real checklist has no aliases and a few thousand nodes.
+MAX_ALIASES = 200
+MAX_NODES = 200_000
+MAX_NESTING = 64
+
+
+def _measure(root: yaml.Node, name: str) -> None:
+    sizes: dict[int, int] = {}
+    open_: set[int] = set()
+    aliases = 0
+
+    def refuse(node: yaml.Node, what: str) -> ChecklistError:
+        return ChecklistError([Problem(name, node.start_mark.line + 1, "-", what)])
+
+    def size(node: yaml.Node, depth: int) -> int:
+        nonlocal aliases
+        key = id(node)
+        if key in sizes:
+            aliases += 1
+            if aliases > MAX_ALIASES:
+                raise refuse(node, f"more than {MAX_ALIASES} YAML alias uses (refused: "
+                             "a checklist needs none)")
+            return sizes[key]
+        if key in open_:
+            raise refuse(node, "a YAML alias refers to the node that contains it (refused)")
+        if depth > MAX_NESTING:
+            raise refuse(node, f"nested more than {MAX_NESTING} levels deep (refused)")
+        total = 1
+        if isinstance(node, yaml.SequenceNode | yaml.MappingNode):
+            open_.add(key)
+            children = node.value if isinstance(node, yaml.SequenceNode) else \
+                [n for pair in node.value for n in pair]
+            for child in children:
+                total += size(child, depth + 1)
+                if total > MAX_NODES:
+                    raise refuse(node, f"expands to more than {MAX_NODES} YAML nodes through "
+                                 "aliases (refused)")
+            open_.discard(key)
+        sizes[key] = total
+        return total
+
+    size(root, 0)
+
+
 def parse(text: str, name: str, *, checks: Registry, strict: bool = False) -> Loaded:
     """Validate checklist text; raise ChecklistError listing every problem.
 
@@ -183,6 +230,7 @@ def parse(text: str, name: str, *, checks: Registry, strict: bool = False) -> Lo
     if root is None:
         raise ChecklistError([Problem(name, 1, "-", "empty file: a checklist needs id, title, "
                                       "version, rules and sections")])
+    _measure(root, name)
     tree = _Tree()
     try:
         data = tree.build(root)

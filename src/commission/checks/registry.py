@@ -16,6 +16,16 @@ from typing import Any
 PASS, FAIL, REVIEW, NA, PENDING = "pass", "fail", "review", "n/a", "pending"
 # An answered item that no check judges: it counts as answered, and never claims a pass.
 RECORDED = "recorded"
+
+# The check-logic version: bump it in the same commit as ANY change to how a check, the
+# evaluator or the job status judges (a limit, a formula, a rounding, a reason's verdict).
+# Records carry it; `verify` treats a verdict that differs under the same check-logic
+# version as a forgery, and under another version as "judged differently" (a notice).
+# 1 = the checks of the first release (records of format 1 carry no number: they are 1).
+# 2 = an answered item that no check judges is "recorded", no longer "pass"; an overdue
+#     instrument marks only the readings it took; a stated instrument accuracy applies the
+#     ILAC-G8 guard band (all landed before this constant).
+CHECK_LOGIC_VERSION = 2
 _SEVERITY = {PASS: 0, REVIEW: 1, FAIL: 2}
 
 

@@ -96,14 +96,18 @@ def jobs(register: RegisterOpt = None, as_json: JsonOpt = False) -> None:
             state = JobState(reg, job)
             rows.append((job, state.status()))
     if as_json:
-        emit_json([{**job.as_json(), "status": status} for job, status in rows])
+        emit_json([{**job.as_json(), "status": status, "unverified": job.unverified}
+               for job, status in rows])
         return
     if not rows:
         typer.echo("no jobs yet: start one with 'commission new --checklist NAME --site TEXT'")
         return
+    from ..record import safe
+
     for job, status in rows:
+        mark = "  UNVERIFIED import" if job.unverified else ""
         typer.echo(f"{job.short_id}  {status:<10}  {job.created_at[:10]}  "
-                   f"{job.details['site'][:40]}")
+                   f"{safe(job.details['site'][:40])}{mark}")
 
 
 def show(
@@ -126,9 +130,11 @@ def show(
     import textwrap
 
     from ..present import plain_text
+    from ..record.text import CONTROL, _escape
 
     def echo(text: str) -> None:
-        typer.echo(plain_text(text))
+        # Job text may come from an imported record: controls are shown escaped.
+        typer.echo(plain_text(CONTROL.sub(_escape, text)))
 
     colour = use_colour()
     j = state.job
@@ -139,6 +145,8 @@ def show(
         if j.details.get(key):
             echo(f"  {key.replace('_', ' ')}: {j.details[key]}")
     echo(f"  checklist: {c.id} {c.version} (sha256 {j.checklist_sha256[:12]}…)")
+    if j.unverified:
+        echo("  UNVERIFIED import: this job came from a record that did not verify")
     status = state.status(results)
     echo(f"Status: {word(status, colour)}")
     for reason in status_reasons(results):
@@ -147,6 +155,12 @@ def show(
     echo(textwrap.fill(SIGN_CONVENTION, WIDTH))
     for line in table(results, colour):
         echo(line)
+    from ..snapshot import judged_differently
+
+    for d in judged_differently(state, results):
+        echo(f"  record's own verdict: {d['id']}: {d['recorded']} (check logic "
+             f"{d['recorded_check_logic']}, commission {d['recorded_program']}); today "
+             f"{d['now']} (check logic {d['now_check_logic']})")
     echo("")
     echo("! = critical. Verdicts: pass, fail, review (needs judgement or data),")
     echo("n/a, pending, recorded (answered; no check judges it).")

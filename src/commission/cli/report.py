@@ -112,8 +112,59 @@ def verify(
     allow_untrusted: Annotated[
         bool, typer.Option(help="Pass when all else holds but the signer is not trusted.")
     ] = False,
+    checklist: Annotated[
+        Path | None,
+        typer.Option(help="The checklist the record must have been judged with (a file)."),
+    ] = None,
+    strict: Annotated[
+        bool, typer.Option(help="Fail when this version judges any item differently.")
+    ] = False,
 ) -> None:
     """Check a record: signatures, the embedded record and every verdict (exit 0/1/2)."""
+    from ..record import safe
+
+    result = _verification(file, trust, checklist, strict)
+    ok = result.ok(allow_untrusted)
+    if as_json:
+        emit_json(result.as_json())
+    else:
+        for s in result.signatures:
+            typer.echo(f"signature: {safe(s['signer'])} · {s['fingerprint'][:16]}… · "
+                       f"{'valid' if s['valid'] else 'INVALID'} · "
+                       f"{'trusted' if s['trusted'] else 'not trusted'} · "
+                       f"{'covers the whole file' if s['covers_whole'] else 'partial'} · "
+                       f"claimed time {safe(s['signing_time'])}")
+        typer.echo(f"embedded record: {'yes' if result.record_embedded else 'no'}; hash "
+                   f"{'matches' if result.record_hash_match else 'DOES NOT match'} the pages")
+        content = result.content
+        if content is not None and content.record is not None:
+            c = content.checklist
+            what = {"released": f"released {c.id} {c.version}",
+                    "named": f"{c.id} {c.version}, the checklist you named",
+                    "custom": f"custom checklist {c.id} {c.version}"}.get(c.kind)
+            if what:
+                typer.echo(f"checklist: {safe(what)} (sha256 {c.sha256[:16]}…)")
+            for line in c.differences:
+                typer.echo(f"  differs: {safe(line)}")
+            typer.echo(f"made by commission {safe(content.program_version)}, check logic "
+                       f"{content.check_logic[0]} (this version: {content.check_logic[1]})")
+        typer.echo(f"verdicts re-evaluated: {'all match' if result.verdicts_match else 'MISMATCH'}"
+                   f"; not re-evaluable: {', '.join(result.not_reevaluable) or 'none'}")
+        for notice in result.notices:
+            if not notice.startswith("custom checklist"):
+                typer.echo(f"notice: {safe(notice)}")
+        typer.echo(f"job status in the record: {safe(result.job_status)}")
+        typer.echo("signing is offline: times are as the signer's computer claimed")
+    if not ok:
+        typer.echo(f"verification failed: {safe(result.first_problem(allow_untrusted))}",
+                   err=True)
+        raise typer.Exit(1)
+    if not as_json:
+        typer.echo("verified")
+
+
+def _verification(file: Path, trust: list[Path] | None, checklist: Path | None = None,
+                  strict: bool = False):
     from ..errors import UserError
     from ..report.identity import load_certificate_bytes
     from ..report.verify import verify as run
@@ -128,64 +179,56 @@ def verify(
             certs.append(load_certificate_bytes(path.read_bytes(), str(path)))
         except OSError as exc:
             raise UserError(f"{path}: cannot read ({exc.strerror})") from None
-    result = run(data, certs)
-    ok = result.ok(allow_untrusted)
-    if as_json:
-        emit_json(result.as_json())
-    else:
-        for s in result.signatures:
-            typer.echo(f"signature: {s['signer']} · {s['fingerprint'][:16]}… · "
-                       f"{'valid' if s['valid'] else 'INVALID'} · "
-                       f"{'trusted' if s['trusted'] else 'not trusted'} · "
-                       f"{'covers the whole file' if s['covers_whole'] else 'partial'} · "
-                       f"claimed time {s['signing_time']}")
-        typer.echo(f"embedded record: {'yes' if result.record_embedded else 'no'}; hash "
-                   f"{'matches' if result.record_hash_match else 'DOES NOT match'} the pages")
-        typer.echo(f"verdicts re-evaluated: {'all match' if result.verdicts_match else 'MISMATCH'}"
-                   f"; not re-evaluable: {', '.join(result.not_reevaluable) or 'none'}")
-        typer.echo(f"job status in the record: {result.job_status}")
-        typer.echo("signing is offline: times are as the signer's computer claimed")
-    if not ok:
-        typer.echo(f"verification failed: {result.first_problem(allow_untrusted)}", err=True)
-        raise typer.Exit(1)
-    if not as_json:
-        typer.echo("verified")
+    named = None
+    if checklist is not None:
+        from ..checklist import load
+        from ..checks import CHECKS
+
+        named = load(checklist, checks=CHECKS, strict=False)
+    return run(data, certs, checklist=named, strict=strict)
 
 
 def import_(
     file: Annotated[Path, typer.Argument(help="A handover PDF made by commission.")],
+    unverified: Annotated[
+        bool, typer.Option(help="Import a record that does not verify; the job is then "
+                           "marked unverified wherever it is shown.")
+    ] = False,
+    trust: Annotated[
+        list[Path] | None, typer.Option(help="Also trust this certificate, for this call.")
+    ] = None,
     register: RegisterOpt = None,
 ) -> None:
-    """Restore the job inside a handover PDF into the register (same ids)."""
-    import json
-
+    """Restore the job inside a verified handover PDF into the register (same ids)."""
     from ..errors import UserError
-    from ..report import record as rec
+    from ..record import safe
     from ..report.restore import restore
-    from ..report.signatures import open_pdf
-    from ..report.verify import attachments, declared_hash
 
-    try:
-        data = file.read_bytes()
-    except OSError as exc:
-        raise UserError(f"{file}: cannot read ({exc.strerror})") from None
-    reader, _ = open_pdf(data)
-    files = attachments(reader)
-    payload = files.get(rec.RECORD_NAME)
-    if payload is None:
-        raise UserError(f"{file}: no embedded record; only records made by commission import")
-    if declared_hash(reader) != rec.record_hash(payload):
-        raise UserError(f"{file}: the embedded record does not match its printed hash; "
-                        "not imported")
-    try:
-        record = json.loads(payload.decode("utf-8"))
-    except (UnicodeDecodeError, ValueError):
-        raise UserError(f"{file}: the embedded record is not readable JSON") from None
-    with open_register(register) as reg:
-        short, restored = restore(reg, record, files)
-    typer.echo(f"imported job {short} with {len(record['entries'])} entries and {restored} "
-               "files")
-    typer.echo(short)
+    result = _verification(file, trust)
+    if not result.ok() and not unverified:
+        typer.echo(f"not imported: {file.name}: {safe(result.first_problem())} (nothing "
+                   "written; --unverified imports it marked unverified)", err=True)
+        raise typer.Exit(1)
+    content = result.content
+    if content is None or content.record is None:
+        # no record, or one that cannot be read: never imported, even --unverified
+        problem = result.first_problem() if content is None else content.problem
+        raise UserError(f"{file}: {problem}; not imported")
+    if content.failed_at in ("checklist", "entries") and content.problem and \
+            "claims a released version" not in content.problem:
+        raise UserError(f"{file}: {content.problem}; not imported")
+    record = content.record
+    from ..report.signatures import open_pdf
+    from ..report.verify import attachments
+
+    files = attachments(open_pdf(file.read_bytes())[0])
+    state = "verified" if result.ok() else "unverified"
+    short, restored = restore(register, record, files, imported=state)
+    if state == "unverified":
+        typer.echo(f"imported UNVERIFIED ({safe(result.first_problem())})")
+    typer.echo(f"imported job {safe(short)} with {len(record.entries)} entries and "
+               f"{restored} files")
+    typer.echo(safe(short))
 
 
 def blank(

@@ -6,7 +6,7 @@ release is migrated on first use; a newer one is refused rather than damaged.
 
 from __future__ import annotations
 
-SCHEMA_VERSION = 5
+SCHEMA_VERSION = 6
 
 # Step n brings a register from version n-1 to n. Never edit a released step:
 # add the next one.
@@ -101,5 +101,19 @@ MIGRATIONS: dict[int, str] = {
     5: """
     ALTER TABLE instruments ADD COLUMN accuracy TEXT NOT NULL DEFAULT '';
     ALTER TABLE instruments ADD COLUMN accuracy_read_as TEXT NOT NULL DEFAULT '';
+    """,
+    # 6: records name a computer by a random device id, never by its host name (issue 8):
+    # the register keeps its device id in `settings`, and new entries store it in `host`.
+    # `jobs.imported` says how a job came in: '' made here, 'verified' or 'unverified'
+    # (imported with --unverified; shown wherever the job is shown). `jobs.recorded` keeps,
+    # for an imported job, the record's own verdicts and check-logic version as JSON, so
+    # they stay visible beside today's ('' for jobs made here).
+    6: """
+    CREATE TABLE settings (
+        key TEXT PRIMARY KEY,
+        value TEXT NOT NULL
+    );
+    ALTER TABLE jobs ADD COLUMN imported TEXT NOT NULL DEFAULT '';
+    ALTER TABLE jobs ADD COLUMN recorded TEXT NOT NULL DEFAULT '';
     """,
 }

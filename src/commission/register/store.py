@@ -50,15 +50,6 @@ def now_iso() -> str:
     return datetime.now(UTC).isoformat(timespec="milliseconds").replace("+00:00", "Z")
 
 
-def this_host() -> str:
-    import socket
-
-    try:
-        return socket.gethostname()[:100]
-    except OSError:
-        return ""
-
-
 def who() -> str:
     name = os.environ.get("COMMISSION_USER")
     if name:
@@ -83,6 +74,13 @@ class Job:
     checklist_text: str
     checklist_source: str
     original: dict[str, str] = field(default_factory=dict)  # details before any amendment
+    imported: str = ""  # '' made here; 'verified' or 'unverified' when imported from a record
+    # an imported job: the record's own verdicts {"check_logic", "program", "verdicts"}
+    recorded: dict[str, Any] = field(default_factory=dict)
+
+    @property
+    def unverified(self) -> bool:
+        return self.imported == "unverified"
 
     def as_json(self) -> dict[str, Any]:
         return {
@@ -113,7 +111,8 @@ class Entry:
     at: str
     by: str
     supersedes: int | None
-    host: str = ""
+    host: str = ""  # the device id of the register it was typed into ('' or a host name
+    #                 in entries made before schema 4)
 
 
 @dataclass(frozen=True)
@@ -163,6 +162,8 @@ class Register:
     create: bool = True
     read_only: bool = field(default=False, init=False)  # this user cannot write the file
     _db: sqlite3.Connection | None = field(default=None, init=False, repr=False)
+    _batch: bool = field(default=False, init=False, repr=False)
+    _device: str | None = field(default=None, init=False, repr=False)
 
     # -- opening and closing -------------------------------------------------
     def __enter__(self) -> Register:
@@ -290,17 +291,20 @@ class Register:
             checklist=checklist,
         )
 
-    def insert_job(self, *, short_id, uuid, created_at, created_by, details, checklist) -> Job:
+    def insert_job(self, *, short_id, uuid, created_at, created_by, details, checklist,
+                   imported: str = "", recorded: dict[str, Any] | None = None) -> Job:
         d = {k: details.get(k) or "" for k in DETAIL_FIELDS}
         with self._transaction():
             cur = self._write(
                 "INSERT INTO jobs (short_id, uuid, created_at, created_by, "
                 + ", ".join(DETAIL_FIELDS) + ", checklist_id,"
-                " checklist_version, checklist_sha256, checklist_text, checklist_source)"
-                " VALUES (" + ",".join("?" * (4 + len(DETAIL_FIELDS) + 5)) + ")",
+                " checklist_version, checklist_sha256, checklist_text, checklist_source,"
+                " imported, recorded) VALUES ("
+                + ",".join("?" * (4 + len(DETAIL_FIELDS) + 7)) + ")",
                 (short_id, uuid, created_at, created_by, *(d[k] for k in DETAIL_FIELDS),
                  checklist.checklist.id, checklist.checklist.version, checklist.sha256,
-                 checklist.text, checklist.name),
+                 checklist.text, checklist.name, imported,
+                 json.dumps(recorded, ensure_ascii=False) if recorded else ""),
             )
         return self.job(cur.lastrowid)
 
@@ -317,7 +321,9 @@ class Register:
             details[e.item_id.removeprefix("job.")] = e.value
         return Job(r["id"], r["short_id"], r["uuid"], r["created_at"], r["created_by"], details,
                    r["checklist_id"], r["checklist_version"], r["checklist_sha256"],
-                   r["checklist_text"], r["checklist_source"], original)
+                   r["checklist_text"], r["checklist_source"], original,
+                   r.get("imported") or "",
+                   json.loads(r["recorded"]) if r.get("recorded") else {})
 
     def find_job(self, ref: str) -> Job:
         ref = ref.strip()
@@ -364,6 +370,7 @@ class Register:
         host: str | None = None,
     ) -> Entry:
         """Append one entry and commit it before returning."""
+        device = self.device_id() if host is None else host
         with self._transaction():
             prev = self.db.execute(
                 "SELECT id FROM entries WHERE job_id = ? AND item_id = ? ORDER BY id DESC LIMIT 1",
@@ -375,7 +382,7 @@ class Register:
                 (uuid or str(uuidlib.uuid4()), job.id, item_id, action, raw,
                  json.dumps(value, ensure_ascii=False), unit_typed, instrument_id,
                  at or now_iso(), by or who(), prev[0] if prev else None,
-                 this_host() if host is None else host),
+                 device),
             )
         return self._entry_by_id(cur.lastrowid)
 
@@ -496,9 +503,35 @@ class Register:
             raise RegisterError(f"{dest}: backup failed ({exc})") from None
         target.close()
 
+    # -- device --------------------------------------------------------------
+    def device_id(self) -> str:
+        """This register's random device id ('dev-' and 16 hex digits), made on first use.
+        Records name the computer an entry was typed on by it, never by its host name."""
+        if self._device is None:
+            row = self.db.execute("SELECT value FROM settings WHERE key = 'device_id'").fetchone()
+            if row is None:
+                made = "dev-" + secrets.token_hex(8)
+                with self._transaction():
+                    self._write("INSERT OR IGNORE INTO settings (key, value) VALUES "
+                                "('device_id', ?)", (made,))
+                row = self.db.execute(
+                    "SELECT value FROM settings WHERE key = 'device_id'").fetchone()
+            self._device = row[0]
+        return self._device
+
     # -- helpers -------------------------------------------------------------
     def _transaction(self):
         return _Tx(self)
+
+    @contextlib.contextmanager
+    def batch(self) -> Iterator[None]:
+        """One transaction around many writes: all of them are kept, or none."""
+        with self._transaction():
+            self._batch = True
+            try:
+                yield
+            finally:
+                self._batch = False
 
 
 class _Tx:
@@ -506,6 +539,9 @@ class _Tx:
         self.reg = reg
 
     def __enter__(self) -> None:
+        self.nested = self.reg._batch
+        if self.nested:
+            return  # inside Register.batch(): its transaction commits or rolls back
         if self.reg.read_only:
             raise RegisterError(f"{self.reg.path}: cannot write: the register is read-only for "
                                 "this user; nothing was changed")
@@ -515,6 +551,8 @@ class _Tx:
             raise _cannot_write(self.reg.path, exc) from None
 
     def __exit__(self, exc_type, exc, tb) -> None:
+        if self.nested:
+            return
         db = self.reg.db
         if exc_type is None:
             try:

@@ -8,9 +8,9 @@ from datetime import UTC, datetime
 from pathlib import Path
 from typing import Any
 
+from .. import record as rec
 from ..walk.state import JobState
 from . import archival
-from . import record as rec
 
 
 @dataclass(frozen=True)
@@ -58,12 +58,20 @@ def embed_files(pdf: bytes, record_payload: bytes, attachments: list[dict[str, A
 
 
 def make(state: JobState, form: dict[str, Any], sign: bool = False,
-         passphrase: str | None = None) -> Made:
+         passphrase: str | None = None, signing: rec.SigningInfo | None = None) -> Made:
+    """``signing``: the signed facts the record declares (creation time, the installer's
+    certificate fingerprint, the reviewer's stamp box). When signing without one, the
+    creation time and the loaded identity's fingerprint are declared."""
     from .pdf import render
 
     results = state.results()
     generated_at = datetime.now(UTC).isoformat(timespec="seconds").replace("+00:00", "Z")
-    built = rec.build(state, results, generated_at)
+    if signing is None and sign:
+        from .identity import load_identity
+
+        signing = rec.SigningInfo(created_at=generated_at,
+                                  installer_fingerprint=load_identity().fingerprint)
+    built = rec.build(state, results, generated_at, signing)
     signer = None
     if sign:
         from .identity import load_identity

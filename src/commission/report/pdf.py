@@ -187,6 +187,10 @@ def _status(c: _Context) -> list:
            _p(f"Job status: {status}. {line}", c.st["base"]),
            _p(f"Job {job.short_id} · {job.details.get('site', '')} · record made "
               f"{c.when(c.generated_at)}", c.st["small"])]
+    if job.unverified:
+        out.append(_p("UNVERIFIED IMPORT: this job was imported from a record that did "
+                      "not verify (signature, integrity or content); its entries are not "
+                      "vouched for by a trusted signature.", c.st["base"]))
 
     out.append(_p("Findings, by weight", c.st["h2"]))
     if not found:

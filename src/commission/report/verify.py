@@ -8,15 +8,10 @@ compared with the snapshot the record carries (whose hash the pages print).
 
 from __future__ import annotations
 
-import hashlib
-import json
-import shutil
-import tempfile
 from dataclasses import dataclass, field
-from pathlib import Path
 from typing import Any
 
-from . import record as rec
+from .. import record as rec
 
 
 @dataclass
@@ -35,14 +30,23 @@ class Verification:
     problems: list[str] = field(default_factory=list)
     trust_note: str | None = None
     record: dict[str, Any] | None = None
+    content: rec.ContentResult | None = None
+    content_ok: bool = False
+    notices: list[str] = field(default_factory=list)
 
     def as_json(self) -> dict[str, Any]:
-        out = {k: v for k, v in self.__dict__.items() if k not in ("record",)}
+        out = {k: v for k, v in self.__dict__.items() if k not in ("record", "content")}
+        if self.content is not None:
+            c = self.content
+            out.update(checklist=c.checklist.as_json(), judged_differently=c.judged_differently,
+                       check_logic={"recorded": c.check_logic[0], "now": c.check_logic[1]},
+                       program_version=c.program_version,
+                       unverified_import=c.unverified_import)
         return out
 
     def ok(self, allow_untrusted: bool = False) -> bool:
         return (self.signed and self.signature_valid and self.intact and self.record_embedded
-                and self.record_hash_match and self.verdicts_match
+                and self.record_hash_match and self.content_ok
                 and (self.trusted or allow_untrusted))
 
     def first_problem(self, allow_untrusted: bool = False) -> str | None:
@@ -54,32 +58,6 @@ class Verification:
             return ("the installer's certificate is not in your trust store (add it with "
                     "'commission trust add CERT', or give --trust CERT)")
         return "verification failed"
-
-
-class FilesFromPdf:
-    """The file store the evaluator needs, backed by the PDF's attachments."""
-
-    def __init__(self, attachments: dict[str, bytes]):
-        self.memo: dict = {}
-        self._dir = Path(tempfile.mkdtemp(prefix="commission-verify-"))
-        self._attachments = attachments
-        self._paths: dict[str, Path | None] = {}
-
-    def path(self, sha256: str) -> Path | None:
-        if sha256 not in self._paths:
-            data = self._attachments.get(sha256)
-            if data is None or hashlib.sha256(data).hexdigest() != sha256:
-                self._paths[sha256] = None
-            else:
-                # Names are our own (the hash), never the attachment's: nothing can be
-                # written outside this folder.
-                target = self._dir / sha256
-                target.write_bytes(data)
-                self._paths[sha256] = target
-        return self._paths[sha256]
-
-    def close(self) -> None:
-        shutil.rmtree(self._dir, ignore_errors=True)
 
 
 def attachments(reader) -> dict[str, bytes]:
@@ -121,35 +99,8 @@ def declared_hash(reader) -> str | None:
     return None
 
 
-def reevaluate(data: dict[str, Any], files) -> tuple[list[dict], list[str], str]:
-    """Verdicts recomputed from a record; returns (mismatches, not_reevaluable, status)."""
-    from ..checklist import parse
-    from ..checks import CHECKS
-    from ..checks.evaluate import evaluate, job_status
-
-    loaded = parse(data["checklist"]["text"], "embedded checklist", checks=CHECKS)
-    entries, instruments = rec.entries_from_record(data)
-    results = evaluate(loaded.checklist, entries, instruments, files)
-    now = {v["id"]: v for v in rec.verdict_snapshot(results)}
-    printed = {v["id"]: v for v in data.get("verdicts", [])}
-    missing_files = {m["sha256"] for m in data.get("files", []) if files.path(m["sha256"]) is None}
-    not_reevaluable = sorted({item for m in data.get("files", []) if m["sha256"] in missing_files
-                              for item in m.get("items", [])})
-    mismatches = []
-    for item_id in sorted(set(now) | set(printed)):
-        a, b = printed.get(item_id), now.get(item_id)
-        if item_id in not_reevaluable:
-            continue
-        if a is None or b is None or any(a.get(k) != b.get(k)
-                                         for k in ("verdict", "measured", "expected")):
-            mismatches.append({"id": item_id,
-                               "printed": a.get("verdict") if a else None,
-                               "recomputed": b.get("verdict") if b else None,
-                               "reason_now": b.get("reason") if b else None})
-    return mismatches, not_reevaluable, job_status(results)
-
-
-def verify(pdf_bytes: bytes, extra_trust: list[Any] | None = None) -> Verification:
+def verify(pdf_bytes: bytes, extra_trust: list[Any] | None = None, checklist=None,
+           strict: bool = False) -> Verification:
     from .signatures import check_signatures, open_pdf
 
     reader, _ = open_pdf(pdf_bytes)  # NotAPdf (exit 2) when it is not a PDF at all
@@ -176,32 +127,18 @@ def verify(pdf_bytes: bytes, extra_trust: list[Any] | None = None) -> Verificati
     if not v.record_hash_match:
         v.problems.append(f"the embedded record's SHA-256 {digest[:16]}… does not match the "
                           f"printed {str(declared)[:16]}…")
-    try:
-        data = json.loads(payload.decode("utf-8"))
-        if data.get("format") != rec.FORMAT:
-            raise ValueError(f"unknown record format {data.get('format')!r}")
-    except (UnicodeDecodeError, ValueError) as exc:
-        v.problems.append(f"the embedded record cannot be read: {exc}")
-        return v
-    v.record = data
-    v.job_status = data.get("status")
-    store = FilesFromPdf(files)
-    try:
-        from ..errors import UserError
-
-        try:
-            v.mismatches, v.not_reevaluable, status_now = reevaluate(data, store)
-        except (UserError, KeyError, TypeError, ValueError) as exc:
-            v.problems.append(f"the embedded record cannot be re-evaluated: {exc}")
-            return v
-    finally:
-        store.close()
-    if status_now != v.job_status:
-        v.mismatches.append({"id": "(job status)", "printed": v.job_status,
-                             "recomputed": status_now, "reason_now": None})
-    v.verdicts_match = not v.mismatches
-    if v.mismatches:
-        m = v.mismatches[0]
-        v.problems.append(f"{len(v.mismatches)} verdict(s) differ from the readings, first "
-                          f"{m['id']}: printed {m['printed']}, recomputed {m['recomputed']}")
+    # The content is verified through the record package (schema, checklist, raw text,
+    # files, re-evaluation); signatures and integrity are checked above.
+    content = rec.verify_content(payload, files, checklist_override=checklist, strict=strict)
+    v.content = content
+    v.content_ok = content.ok
+    v.record = content.data
+    v.job_status = content.job_status
+    v.mismatches = content.mismatches
+    v.not_reevaluable = content.not_reevaluable
+    v.notices = list(content.notices)
+    v.verdicts_match = content.record is not None and not content.mismatches and \
+        content.problem is None
+    if content.problem:
+        v.problems.append(content.problem)
     return v
