@@ -393,11 +393,13 @@ def test_other_check_logic_version_is_a_notice_and_strict_fails(cli, forge, tmp_
                 v["reason"] = "model not on the approved list"
         data["tool"]["check_logic"] = 0
 
+    from commission.checks.registry import CHECK_LOGIC_VERSION as NOW
+
     path = forge.pdf(change)
     result = cli("verify", path)
     assert result.exit_code == 0, result.output
     assert ("notice: judged differently by this version: install.inverter: recorded review "
-            "(check logic 0), now pass (check logic 1)") in result.stdout
+            f"(check logic 0), now recorded (check logic {NOW})") in result.stdout
     strict = cli("verify", path, "--strict")
     assert strict.exit_code == 1
     assert "judged differently by this version (--strict)" in strict.stderr
@@ -407,6 +409,6 @@ def test_other_check_logic_version_is_a_notice_and_strict_fails(cli, forge, tmp_
     job = imported.stdout.strip().splitlines()[-1]
     shown = cli("show", job, "--register", target)
     assert ("record's own verdict: install.inverter: review (check logic 0, commission "
-            "0.1.0); today pass (check logic 1)") in " ".join(shown.stdout.split())
+            f"0.1.0); today recorded (check logic {NOW})") in " ".join(shown.stdout.split())
     data = json.loads(cli("show", job, "--json", "--register", target).stdout)
     assert [d["id"] for d in data["judged_differently"]] == ["install.inverter"]

@@ -97,10 +97,11 @@ def test_the_device_id_is_kept_in_the_register(demo):
 
 # ------------------------------------------------------------------- previous release
 
-@pytest.mark.parametrize(("name", "version"), [("record-v1", "1.2.0"), ("record-v1b", "1.3.0")])
+@pytest.mark.parametrize(("name", "version"), [("record-v1", "1.2.0"), ("record-v1b", "1.4.0")])
 def test_a_record_of_the_previous_release_still_verifies(cli, name, version):
-    """record-v1b was made after the layout work added next_inspection and language to
-    format 1, just before format 2."""
+    """record-v1b was made by main's code just before format 2 (after the layout work added
+    next_inspection and language to format 1, and answered items without a check became
+    'recorded')."""
     pdf = DATA / f"{name}.pdf"
     result = cli("verify", pdf, "--trust", DATA / f"{name}-installer.pem")
     assert result.exit_code == 0, result.output
@@ -123,16 +124,16 @@ def test_a_record_of_the_previous_release_imports(cli, tmp_path):
 # ------------------------------------------------------------------- custom checklist
 
 def test_custom_checklist_verifies_listing_its_differences(cli, demo, tmp_path, monkeypatch):
-    """A site's own checklist (own version): the trip-time check taken off the 1×IΔn test,
-    a stricter limit on the 5×IΔn test, one item added. verify passes and lists exactly
-    these differences from the shipped checklist."""
+    """A site's own checklist (own version): the 1×IΔn trip time made non-critical with its
+    trip-time check taken off, one item added. verify passes and lists exactly these
+    differences from the shipped checklist."""
     monkeypatch.setenv("COMMISSION_HOME", str(demo["folder"]))
     text = CHECKLIST.read_text(encoding="utf-8").replace(f"version: {VERSION}",
                                                          f"version: {VERSION}-site", 1)
     start = text.index("      - id: protection.rcd.t1")
     end = text.index("      - id: protection.rcd.t5")
     block = re.sub(r"        check:\n          name: rcd_trip_time\n(          .*\n)+", "",
-                   text[start:end])
+                   text[start:end]).replace("critical: true", "critical: false")
     extra = ("      - id: protection.rcd.label\n        kind: confirm\n"
              "        prompt: RCD test label fixed beside the device\n")
     text = text[:start] + block + extra + text[end:]
@@ -158,7 +159,8 @@ def test_custom_checklist_verifies_listing_its_differences(cli, demo, tmp_path, 
     assert f"checklist: custom checklist diverter-1ph {VERSION}-site" in result.stdout
     differs = [line.strip() for line in result.stdout.splitlines()
                if line.strip().startswith("differs:")]
-    assert differs == ["differs: protection.rcd.t1: check removed",
+    assert differs == ["differs: protection.rcd.t1: critical True → False",
+                       "differs: protection.rcd.t1: check removed",
                        "differs: protection.rcd.label: item added"]
     data = json.loads(cli("verify", out, "--json").stdout)
     assert data["checklist"]["kind"] == "custom"
@@ -247,17 +249,17 @@ def test_unverified_import_is_marked_everywhere(cli, demo, tmp_path):
 
 # ------------------------------------------------------------------- register
 
-def test_register_from_schema_3_migrates_on_first_use(cli, tmp_path):
-    """tests/data/register-v3.sqlite3 was made by main's code at schema 3 (one job, one
+def test_register_from_schema_4_migrates_on_first_use(cli, tmp_path):
+    """tests/data/register-v4.sqlite3 was made by main's code at schema 4 (one job, one
     reading typed on a host named in the old `host` column)."""
-    copy = tmp_path / "v3.sqlite3"
-    shutil.copy(DATA / "register-v3.sqlite3", copy)
-    assert sqlite3.connect(copy).execute("PRAGMA user_version").fetchone()[0] == 3
+    copy = tmp_path / "v4.sqlite3"
+    shutil.copy(DATA / "register-v4.sqlite3", copy)
+    assert sqlite3.connect(copy).execute("PRAGMA user_version").fetchone()[0] == 4
     listed = cli("jobs", "--json", "--register", copy)
     assert listed.exit_code == 0, listed.output
     (job,) = json.loads(listed.stdout)
     assert job["unverified"] is False and job["site"] == "Fixture Site"
-    assert sqlite3.connect(copy).execute("PRAGMA user_version").fetchone()[0] == 4
+    assert sqlite3.connect(copy).execute("PRAGMA user_version").fetchone()[0] == 5
     out = tmp_path / "r.pdf"
     made = cli("report", job["id"], "--out", out, "--register", copy)
     assert made.exit_code == 0, made.output

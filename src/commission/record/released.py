@@ -23,6 +23,7 @@ RELEASED: dict[str, dict[str, tuple[str, ...]]] = {
         "1.2.0": ("8b611a5eee9c47388d830346d98e9f252ef99d39b70cb022e2c7e7d4caf84b19",),
         "1.3.0": ("0644e9117ff461d4cab31a2027a3860e63e1a7e85191d72f4a25ff79212b637b",
                   "0475167728a10e9d0eed006a522aa8d9ee1707cd46aa3bb90128a14cd191e993"),
+        "1.4.0": ("d571c6d3ad6a7034539031a7461ca0716c99bbfbafb674a2d00aefaabadc3128",),
     },
 }
 
