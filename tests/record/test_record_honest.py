@@ -97,7 +97,7 @@ def test_the_device_id_is_kept_in_the_register(demo):
 
 # ------------------------------------------------------------------- previous release
 
-@pytest.mark.parametrize(("name", "version"), [("record-v1", "1.2.0"), ("record-v1b", "1.4.0")])
+@pytest.mark.parametrize(("name", "version"), [("record-v1", "1.2.0"), ("record-v1b", "1.5.0")])
 def test_a_record_of_the_previous_release_still_verifies(cli, name, version):
     """record-v1b was made by main's code just before format 2 (after the layout work added
     next_inspection and language to format 1, and answered items without a check became
@@ -203,7 +203,7 @@ def test_the_released_list_matches_git_history():
         version = re.search(rb"^version: *(\S+)", blob, re.M).group(1).decode()
         assert hashlib.sha256(blob).hexdigest() in RELEASED["diverter-1ph"][version], commit
         seen.add(version)
-    assert {"1.0.0", "1.1.0", "1.2.0", "1.3.0"} <= seen
+    assert {"1.0.0", "1.1.0", "1.2.0", "1.3.0", "1.5.0"} <= seen
 
 
 def test_differences_name_params_inputs_and_fields():
@@ -249,17 +249,17 @@ def test_unverified_import_is_marked_everywhere(cli, demo, tmp_path):
 
 # ------------------------------------------------------------------- register
 
-def test_register_from_schema_4_migrates_on_first_use(cli, tmp_path):
-    """tests/data/register-v4.sqlite3 was made by main's code at schema 4 (one job, one
+def test_register_from_schema_5_migrates_on_first_use(cli, tmp_path):
+    """tests/data/register-v5.sqlite3 was made by main's code at schema 5 (one job, one
     reading typed on a host named in the old `host` column)."""
-    copy = tmp_path / "v4.sqlite3"
-    shutil.copy(DATA / "register-v4.sqlite3", copy)
-    assert sqlite3.connect(copy).execute("PRAGMA user_version").fetchone()[0] == 4
+    copy = tmp_path / "v5.sqlite3"
+    shutil.copy(DATA / "register-v5.sqlite3", copy)
+    assert sqlite3.connect(copy).execute("PRAGMA user_version").fetchone()[0] == 5
     listed = cli("jobs", "--json", "--register", copy)
     assert listed.exit_code == 0, listed.output
     (job,) = json.loads(listed.stdout)
     assert job["unverified"] is False and job["site"] == "Fixture Site"
-    assert sqlite3.connect(copy).execute("PRAGMA user_version").fetchone()[0] == 5
+    assert sqlite3.connect(copy).execute("PRAGMA user_version").fetchone()[0] == 6
     out = tmp_path / "r.pdf"
     made = cli("report", job["id"], "--out", out, "--register", copy)
     assert made.exit_code == 0, made.output

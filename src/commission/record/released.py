@@ -15,7 +15,8 @@ from __future__ import annotations
 from typing import Any
 
 # id -> version -> SHA-256 of every text shipped under that version (recovered with
-# `git log -p checklists/`; 1.3.0 was shipped twice: its text was edited without a bump).
+# `git log -p checklists/`; 1.3.0 and 1.5.0 were each shipped with two texts: edited
+# without a bump).
 RELEASED: dict[str, dict[str, tuple[str, ...]]] = {
     "diverter-1ph": {
         "1.0.0": ("0ede64f5d1261abc06667f1bf137bf9a368b5c254e996a8276333f3bf3466401",),
@@ -24,6 +25,8 @@ RELEASED: dict[str, dict[str, tuple[str, ...]]] = {
         "1.3.0": ("0644e9117ff461d4cab31a2027a3860e63e1a7e85191d72f4a25ff79212b637b",
                   "0475167728a10e9d0eed006a522aa8d9ee1707cd46aa3bb90128a14cd191e993"),
         "1.4.0": ("d571c6d3ad6a7034539031a7461ca0716c99bbfbafb674a2d00aefaabadc3128",),
+        "1.5.0": ("816c4ff5875af9e6abfa4dda5e9e20ca4544c9f30cf66de8db237dc72b4d0334",
+                  "18e1bc169056a1eed8f477984a668157c34a63bacf4635d04e40f850e2fe0d72"),
     },
 }
 

@@ -112,7 +112,7 @@ class Entry:
     by: str
     supersedes: int | None
     host: str = ""  # the device id of the register it was typed into ('' or a host name
-    #                 in entries made before schema 4)
+    #                 in entries made before schema 6)
 
 
 @dataclass(frozen=True)
