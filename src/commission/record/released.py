@@ -2,7 +2,8 @@
 differs from the shipped one of its id.
 
 A record names the checklist that judged it by id, version and SHA-256 of its text
-(the SHA-256 of the file's UTF-8 bytes, as a job stores it). ``verify`` says whether
+(the SHA-256 of the UTF-8 text a job stores: the file's bytes, or for a checklist that
+includes sections from another, its resolved text). ``verify`` says whether
 that text is a released one. The list holds every released version, not only the
 current file, so a record made with an older release still says "released".
 
@@ -27,6 +28,11 @@ RELEASED: dict[str, dict[str, tuple[str, ...]]] = {
         "1.4.0": ("d571c6d3ad6a7034539031a7461ca0716c99bbfbafb674a2d00aefaabadc3128",),
         "1.5.0": ("816c4ff5875af9e6abfa4dda5e9e20ca4544c9f30cf66de8db237dc72b4d0334",
                   "18e1bc169056a1eed8f477984a668157c34a63bacf4635d04e40f850e2fe0d72"),
+    },
+    # A checklist that includes sections from another is hashed as a job stores it: the
+    # resolved text (here 1.0.0 resolved against diverter-1ph 1.5.0).
+    "diverter-3ph": {
+        "1.0.0": ("1f8209b95d88076ba32ab8fd8cd6227aebdd27b492012c0e021566bc3ec6b8ae",),
     },
 }
 
