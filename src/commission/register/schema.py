@@ -6,7 +6,7 @@ release is migrated on first use; a newer one is refused rather than damaged.
 
 from __future__ import annotations
 
-SCHEMA_VERSION = 5
+SCHEMA_VERSION = 6
 
 # Step n brings a register from version n-1 to n. Never edit a released step:
 # add the next one.
@@ -101,5 +101,16 @@ MIGRATIONS: dict[int, str] = {
     5: """
     ALTER TABLE instruments ADD COLUMN accuracy TEXT NOT NULL DEFAULT '';
     ALTER TABLE instruments ADD COLUMN accuracy_read_as TEXT NOT NULL DEFAULT '';
+    """,
+    # 6: an instrument may carry an export profile (how to read its files: columns, time
+    # format and zone, scales), and an entry of a file item keeps the profile it was read
+    # with, so the record and `verify` read the file the same way. Older entries: NULL.
+    6: """
+    CREATE TABLE export_profiles (
+        instrument_id INTEGER PRIMARY KEY REFERENCES instruments(id),
+        profile_json TEXT NOT NULL,
+        updated_at TEXT NOT NULL
+    );
+    ALTER TABLE entries ADD COLUMN read_with TEXT;
     """,
 }

@@ -34,10 +34,16 @@ def record_hash(data: bytes) -> str:
 
 def _entry(e: Entry, instruments: dict[int, Instrument]) -> dict[str, Any]:
     inst = instruments.get(e.instrument_id) if e.instrument_id else None
-    return {"uuid": e.uuid, "seq": e.id, "item": e.item_id, "action": e.action, "raw": e.raw,
-            "value": e.value, "unit_typed": e.unit_typed,
-            "instrument": inst.serial if inst else None, "at": e.at, "by": e.by,
-            "supersedes": e.supersedes, "host": e.host}
+    out = {"uuid": e.uuid, "seq": e.id, "item": e.item_id, "action": e.action, "raw": e.raw,
+           "value": e.value, "unit_typed": e.unit_typed,
+           "instrument": inst.serial if inst else None, "at": e.at, "by": e.by,
+           "supersedes": e.supersedes, "host": e.host}
+    # Issue 9: the export profile a file was read with (columns, time format and zone,
+    # scales) travels with its entry, so `verify` reads the file the same way. Only present
+    # when a profile was used, so records without one keep their earlier shape.
+    if e.read_with:
+        out["read_with"] = e.read_with
+    return out
 
 
 def verdict_snapshot(results: list[Result]) -> list[dict[str, Any]]:
@@ -114,7 +120,8 @@ def entries_from_record(data: dict[str, Any]) -> tuple[list[Entry], dict[int, In
     entries = [
         Entry(int(e["seq"]), e["uuid"], e["item"], e["action"], e["raw"], e["value"],
               e.get("unit_typed"), by_serial.get(e.get("instrument") or ""), e["at"], e["by"],
-              e.get("supersedes"), e.get("host", ""))
+              e.get("supersedes"), e.get("host", ""),
+              e["read_with"] if isinstance(e.get("read_with"), dict) else None)
         for e in data["entries"]
     ]
     return entries, instruments

@@ -70,7 +70,8 @@ def restore(reg: Register, data: dict[str, Any], files: dict[str, bytes]) -> tup
     for e in data["entries"]:
         reg.add_entry(job, e["item"], e["action"], e["raw"], e["value"], e.get("unit_typed"),
                       serials.get(e.get("instrument") or ""), by=e["by"], at=e["at"],
-                      uuid=e["uuid"], host=e.get("host", ""))
+                      uuid=e["uuid"], host=e.get("host", ""),
+                      read_with=e["read_with"] if isinstance(e.get("read_with"), dict) else None)
     return job.short_id, restored
 
 
