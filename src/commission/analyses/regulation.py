@@ -34,6 +34,29 @@ class RegulationSettings:
     hold_s: float = DEFAULT_HOLD_S
 
 
+def judge_stats(stats, dead_band_w: float) -> tuple[str, str]:
+    """The rule on a log's statistics (physics.regulation.RegulationStats): (verdict,
+    reason). Pass when |mean| <= D and the 95th percentile of |grid| <= 3 D."""
+    d = float(dead_band_w)
+    if not d > 0:
+        raise SettingsError("the dead band must be greater than zero, e.g. 50 W")
+    mean_ok = abs(stats.mean_grid_w) <= d
+    spread_ok = stats.p95_abs_grid_w <= SPREAD_FACTOR * d
+    shown = (f"mean grid {stats.mean_grid_w:+.0f} W (dead band ±{d:.0f} W), 95 % of readings "
+             f"within ±{stats.p95_abs_grid_w:.0f} W (allowed {SPREAD_FACTOR * d:.0f} W)")
+    if mean_ok and spread_ok:
+        return PASS, shown
+    problems = []
+    if not mean_ok:
+        side = "importing" if stats.mean_grid_w > 0 else "exporting"
+        problems.append(f"the mean is outside the dead band ({side}: check the clamp, the "
+                        "dead band setting and that surplus was available)")
+    if not spread_ok:
+        problems.append("the reading swings widely (hunting or slow response: check the "
+                        "control settings)")
+    return FAIL, f"{shown}; " + "; ".join(problems)
+
+
 def analyse_regulation(path, settings: RegulationSettings, read: ReadSettings | None = None,
                        *, name: str | None = None) -> Analysis:
     """Read a grid-power log and judge how well the diverter held the dead band."""
@@ -48,26 +71,11 @@ def analyse_regulation(path, settings: RegulationSettings, read: ReadSettings | 
                               tz=read.tz, name=name)
     stats = regulation.grid_statistics(log.time_s, log.grid_w, diverter_w=log.diverter_w,
                                        settling_band_w=d, settling_hold_s=settings.hold_s)
-    mean_ok = abs(stats.mean_grid_w) <= d
-    spread_ok = stats.p95_abs_grid_w <= SPREAD_FACTOR * d
-    shown = (f"mean grid {stats.mean_grid_w:+.0f} W (dead band ±{d:.0f} W), 95 % of readings "
-             f"within ±{stats.p95_abs_grid_w:.0f} W (allowed {SPREAD_FACTOR * d:.0f} W)")
+    verdict, shown = judge_stats(stats, d)
     settle = (f"; settled {stats.settling_s:.0f} s after the largest step"
               if stats.settling_s is not None else "")
-    energy = (f" ({SIGN}); exported {stats.exported_wh:.1f} Wh, imported "
+    reason = (f"{shown} ({SIGN}); exported {stats.exported_wh:.1f} Wh, imported "
               f"{stats.imported_wh:.1f} Wh{settle}")
-    if mean_ok and spread_ok:
-        verdict, reason = PASS, shown + energy
-    else:
-        problems = []
-        if not mean_ok:
-            side = "importing" if stats.mean_grid_w > 0 else "exporting"
-            problems.append(f"the mean is outside the dead band ({side}: check the clamp, the "
-                            "dead band setting and that surplus was available)")
-        if not spread_ok:
-            problems.append("the reading swings widely (hunting or slow response: check the "
-                            "control settings)")
-        verdict, reason = FAIL, f"{shown}; " + "; ".join(problems) + energy
     findings = reader_findings(log)
     verdict, reason = with_findings(verdict, reason, findings)
     figures: dict[str, Any] = {

@@ -14,8 +14,10 @@ Public names:
   of any size, in bounded memory, giving the same figures as :func:`analyse`.
 * :func:`fit_mains_sine` -- frequency and amplitude of a short stretch of voltage.
 * :func:`sample_rate_from_times` -- sample rate and start of an evenly spaced time column.
-* :func:`power_direction` and :func:`classify_clamp` -- what the figures say about the
-  direction of power flow and the orientation of the current clamp.
+* :func:`power_direction` -- the direction of power flow from the sign of P.
+* :func:`cycle_powers`, :func:`dc_removed_power_factor` -- P per cycle (its spread) and the
+  power factor without DC offsets. The clamp verdict is the capture analysis's
+  (:mod:`commission.analyses.capture`): physics returns numbers only.
 
 Sign of power: positive = import, energy flowing from the grid into the premises, for a
 clamp on the incoming supply conductor with its arrow pointing into the premises.
