@@ -89,7 +89,26 @@ def run(ctx: Context) -> list[Figure]:
     if fig.met is False:
         fig.detail += imports_beyond(cli_argv, [sys.executable, "-c", "import numpy"], env)
         fig.detail += profile_child(cli_argv, ctx.scratch, env, n=10)
-    return [fig, lib]
+    return [fig, lib, _export_twin(ctx, csv, t_base)]
+
+
+def _export_twin(ctx: Context, csv: Path, t_base: list[float]) -> Figure:
+    """The same capture as an instrument exports it (two metadata lines, ';' with decimal
+    commas, units in the header) through the same command, against the same loadtxt runs
+    of the plain file (informational: the reader layer's decimal-comma path)."""
+    twin = ctx.scratch / "capture-export.csv"
+    with csv.open(encoding="ascii") as src, twin.open("w", encoding="utf-8") as out:
+        out.write("Logger;FE-2\nSerial;00412\ntime [s];U [V];I [A]\n")
+        next(src)
+        for line in src:
+            out.write(line.replace(",", ";").replace(".", ","))
+    env = ctx.child_env()
+    argv = [*ctx.cli, "analyse", "capture", str(twin), "--json"]
+    checked(run_child(argv, env=env), "analyse capture (export)")
+    times = [checked(run_child(argv, env=env), "analyse capture (export)").seconds
+             for _ in range(2 if ctx.quick else 3)]
+    return Figure("  same capture as a ';'/decimal-comma export", median(times),
+                  median(t_base), "s", None, None, baseline_name="numpy.loadtxt, plain file")
 
 
 def _fixed_cost(ctx: Context, cli_argv: list[str], base_argv: list[str]) -> str:
@@ -121,26 +140,24 @@ def _parts(ctx: Context, csv: Path) -> tuple[Figure, list[str]]:
     env = ctx.child_env()
     started = [checked(run_child([sys.executable, "-c", "import numpy"], env=env),
                        "python -c 'import numpy'").seconds for _ in range(3)]
+    from commission.analyses import CaptureSettings, analyse_capture
     from commission.captures import read_capture_csv
-    from commission.physics.waveform import CaptureAccumulator
 
-    t_load, t_read, t_acc = [], [], []
+    t_load, t_read, t_all = [], [], []
     for _ in range(2 if ctx.quick else 3):
         with stopwatch() as loadtxt:
             np.loadtxt(csv, delimiter=",", skiprows=1)
         with stopwatch() as read:
-            cap = read_capture_csv(csv)
+            read_capture_csv(csv)
         with stopwatch() as analysed:
-            acc = CaptureAccumulator(cap.sample_rate_hz, start_time_s=cap.start_time_s)
-            acc.add(cap.voltage_v, cap.current_a)
-            acc.result()
+            analyse_capture(csv, CaptureSettings(state="full"))
         t_load += loadtxt
         t_read += read
-        t_acc += analysed
-    load, rd, an, st = median(t_load), median(t_read), median(t_acc), median(started)
-    fig = Figure("  library only: read_capture_csv + analysis", rd + an, load, "s", None,
+        t_all += analysed
+    load, rd, whole, st = median(t_load), median(t_read), median(t_all), median(started)
+    fig = Figure("  library only: analyses.analyse_capture", whole, load, "s", None,
                  None, baseline_name="numpy.loadtxt, in-process")
     return fig, [
         f"in-process medians: numpy.loadtxt {load:.3f} s; read_capture_csv {rd:.3f} s "
-        f"(loadtxt + checks {rd - load:+.3f} s); CaptureAccumulator {an:.3f} s; a child "
-        f"that only imports numpy {st:.3f} s"]
+        f"(loadtxt + reader layer {rd - load:+.3f} s); analyse_capture (read, physics, "
+        f"findings, clamp) {whole:.3f} s; a child that only imports numpy {st:.3f} s"]

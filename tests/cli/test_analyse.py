@@ -79,7 +79,7 @@ def test_capture_resistive_load_unlocked_sampling_mid_cycle(cli, tmp_path):
     path = _write_csv(tmp_path / "r.csv", ("time_s", "voltage_v", "current_a"), t, v, i,
                       fmt="%.9f")
     data = _ok_json(cli, "analyse", "capture", path, "--expect", "import")
-    assert set(data) == CAPTURE_KEYS
+    assert set(data) >= CAPTURE_KEYS
     v_rms = math.sqrt(v_dc**2 + v_pk**2 / 2)
     i_rms = i_pk / SQRT2
     p = v_pk * i_pk / 2
@@ -144,7 +144,7 @@ def test_capture_phase_cut_60hz_against_quad(cli, tmp_path):
     path = _write_csv(tmp_path / "cut.csv", ("time_s", "voltage_v", "current_a"), t, v, i,
                       fmt="%.9f")
     data = _ok_json(cli, "analyse", "capture", path, "--windows")
-    assert set(data) == CAPTURE_KEYS | {"windows"}
+    assert set(data) >= CAPTURE_KEYS | {"windows"}
     assert data["frequency_hz"] == pytest.approx(f, abs=0.05)
     assert data["v_rms"] == pytest.approx(u_rms, rel=0.005)
     assert data["i_rms"] == pytest.approx(ref["i_rms"], rel=0.005)
@@ -240,7 +240,7 @@ def test_capture_wav_channels_and_audio_warning(cli, tmp_path):
                  "--channels", "2,1", "--expect", "import", "--json")
     assert result.exit_code == 0, result.output
     data = json.loads(result.stdout)
-    assert set(data) == CAPTURE_KEYS
+    assert set(data) >= CAPTURE_KEYS
     assert data["v_rms"] == pytest.approx(0.65 * 500 / SQRT2, rel=0.005)
     assert data["i_rms"] == pytest.approx(0.45 * 40 / SQRT2, rel=0.005)
     assert data["p_w"] == pytest.approx(0.65 * 500 * 0.45 * 40 / 2, rel=0.005)
@@ -437,14 +437,15 @@ def _soak_log(path, *, t0=25.0, tinf=70.0, tau=900.0, covered=2.0, step=30.0, no
 
 
 def test_soak_fit_against_known_model_and_curve_fit(cli, tmp_path):
-    """First-order soak with known T_inf = 70 degC over two time constants: t_inf_c within
+    """First-order soak with known T_inf = 70 degC over 3.5 time constants: t_inf_c within
     1.5 K (issue 3 acceptance) and equal to scipy.optimize.curve_fit's estimate on the
     same (rounded) readings; the upper bound is below the 90 degC limit: pass."""
     from scipy.optimize import curve_fit
 
-    path, t, _ = _soak_log(tmp_path / "s.csv")
+    path, t, _ = _soak_log(tmp_path / "s.csv", covered=3.5)
     data = _ok_json(cli, "analyse", "soak", path, "--ambient-c", "25", "--limit-c", "90")
     assert set(data) >= SOAK_KEYS
+    assert data["model"] == "one time constant"
     assert abs(data["t_inf_c"] - 70.0) < 1.5
     y = np.loadtxt(path, delimiter=",", skiprows=1)[:, 1]
     popt, _ = curve_fit(_soak_model, t, y, p0=(y[0], y[-1] + 5.0, t[-1] / 2))
@@ -452,7 +453,8 @@ def test_soak_fit_against_known_model_and_curve_fit(cli, tmp_path):
     assert data["tau_s"] == pytest.approx(popt[2], rel=1e-3)
     lo, hi = data["t_inf_ci_c"]
     assert lo < data["t_inf_c"] < hi
-    assert data["predicted_max_c"] == pytest.approx(data["t_inf_c"])
+    # default rise factor 1.2 (+10 % supply voltage, CHECKS.md) on the rise over ambient
+    assert data["predicted_max_c"] == pytest.approx(25.0 + 1.2 * (data["t_inf_c"] - 25.0))
     assert data["fit_rmse_k"] == pytest.approx(0.2, rel=0.3)
     assert data["verdict"] == "pass"
 

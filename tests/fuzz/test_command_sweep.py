@@ -142,6 +142,8 @@ TEXTS = [
     ("amend-client", ["amend", "{JOB}", "--client", "{T}"]),
     ("instruments-add", ["instruments", "add", "--serial", "{T}", "--make", "{T}", "--model",
                          "M", "--calibration-due", "{T}"]),
+    ("instruments-profile", ["instruments", "profile", "--", "{T}"]),
+    ("instruments-profile-tz", ["instruments", "profile", "--tz", "{T}", "--", "NOSUCH"]),
     ("analyse-option", ["analyse", "heating", "{HEATING}", "--volume-l", "{T}", "--power-w",
                         "{T}"]),
     ("analyse-columns", ["analyse", "capture", "{CAPTURE}", "--columns", "{T}"]),

@@ -358,24 +358,18 @@ LOGS = {(k, s): _log_lines(k, s) for k in ("heating", "soak", "regulation")
         for s in (False, True)}
 
 
-def _log_physics(kind: str, log) -> str:
-    """What `commission analyse heating|soak|regulation` runs on a log that was read."""
+def _log_physics(kind: str, path, columns) -> str:
+    """What `commission analyse heating|soak|regulation` runs on a log (the analyses)."""
+    from commission import analyses
+
+    read = analyses.ReadSettings(columns=columns)
     if kind == "heating":
-        from commission.checks.heating import assess_heating_log
-
-        return assess_heating_log(log.time_s, log.temp_c, power_w=3000.0, volume_l=150.0,
-                                  fill_temp_c=15.0, band=(0.85, 1.10)).verdict
+        return analyses.analyse_heating(path, analyses.HeatingSettings(
+            power_w=3000.0, volume_l=150.0), read).verdict
     if kind == "soak":
-        from commission.physics import thermal
-
-        fit = thermal.fit_first_order(log.time_s, log.temp_c)
-        prediction = thermal.predict_worst_case(fit, 25.0, worst_ambient_c=40.0)
-        return thermal.soak_verdict(fit, prediction, 80.0).verdict
-    from commission.physics import regulation as reg
-
-    stats = reg.grid_statistics(log.time_s, log.grid_w, diverter_w=log.diverter_w,
-                                settling_band_w=50.0, settling_hold_s=10.0)
-    return reg.regulation_verdict(stats, 50.0).verdict
+        return analyses.analyse_soak(path, analyses.SoakSettings(
+            limit_c=80.0, ambient_c=25.0, worst_ambient_c=40.0), read).verdict
+    return analyses.analyse_regulation(path, analyses.RegulationSettings(50.0), read).verdict
 
 
 def test_log_files_and_physics(capsys):
@@ -412,7 +406,7 @@ def test_log_files_and_physics(capsys):
                 return
             assert log.time_s.size and np.all(np.diff(log.time_s) > 0)
             try:
-                verdict = _log_physics(kind, log)
+                verdict = _log_physics(kind, path, columns)
             except ValueError:
                 seen["physics refused"] += 1
                 return

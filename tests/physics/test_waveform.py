@@ -16,7 +16,6 @@ from scipy import integrate
 
 from commission.physics.waveform import (
     analyse,
-    classify_clamp,
     fit_mains_sine,
     power_direction,
     sample_rate_from_times,
@@ -315,34 +314,6 @@ def test_direction_none_for_quadrature_current():
                 SQ2 * 10 * np.sin(theta - math.radians(89.5)))
     assert r.p_w == pytest.approx(2300 * math.cos(math.radians(89.5)), abs=5.0)
     assert r.direction == "none"
-
-
-@pytest.mark.parametrize(
-    ("phi", "expect", "verdict", "cause"),
-    [
-        (3.0, "import", "pass", "as expected"),
-        (-40.0, "import", "pass", "as expected"),
-        (178.0, "import", "fail", "reversed"),
-        (-150.0, "import", "fail", "reversed"),
-        (121.0, "import", "fail", "another phase"),
-        (-118.0, "import", "fail", "another phase"),
-        (58.0, "import", "fail", "another phase and reversed"),
-        (-63.0, "import", "fail", "another phase and reversed"),
-        (91.0, "import", "fail", "reactive load or wrong reference"),
-        (-177.0, "export", "pass", "as expected"),
-        (2.0, "export", "fail", "reversed"),
-        (-61.0, "export", "fail", "another phase"),  # 180 - 120 -> deviation 119
-        (119.0, "export", "fail", "another phase and reversed"),
-        (-88.0, "export", "fail", "reactive load or wrong reference"),
-        (10.0, None, "review", "no expectation"),
-    ],
-)
-def test_clamp_classifier(phi, expect, verdict, cause):
-    """Phasors of a three-phase system are 120 deg apart; a reversed clamp adds 180 deg
-    (CHECKS.md, direction and clamp orientation)."""
-    got = classify_clamp(phi, expect)
-    assert (got.verdict, got.likely_cause) == (verdict, cause)
-    assert "mostly resistive load" in got.reason and "diverter off or at full output" in got.reason
 
 
 def test_voltage_dropout_is_left_out():

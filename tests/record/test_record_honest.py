@@ -249,17 +249,17 @@ def test_unverified_import_is_marked_everywhere(cli, demo, tmp_path):
 
 # ------------------------------------------------------------------- register
 
-def test_register_from_schema_5_migrates_on_first_use(cli, tmp_path):
-    """tests/data/register-v5.sqlite3 was made by main's code at schema 5 (one job, one
+def test_register_from_schema_6_migrates_on_first_use(cli, tmp_path):
+    """tests/data/register-v6.sqlite3 was made by main's code at schema 6 (one job, one
     reading typed on a host named in the old `host` column)."""
-    copy = tmp_path / "v5.sqlite3"
-    shutil.copy(DATA / "register-v5.sqlite3", copy)
-    assert sqlite3.connect(copy).execute("PRAGMA user_version").fetchone()[0] == 5
+    copy = tmp_path / "v6.sqlite3"
+    shutil.copy(DATA / "register-v6.sqlite3", copy)
+    assert sqlite3.connect(copy).execute("PRAGMA user_version").fetchone()[0] == 6
     listed = cli("jobs", "--json", "--register", copy)
     assert listed.exit_code == 0, listed.output
     (job,) = json.loads(listed.stdout)
     assert job["unverified"] is False and job["site"] == "Fixture Site"
-    assert sqlite3.connect(copy).execute("PRAGMA user_version").fetchone()[0] == 6
+    assert sqlite3.connect(copy).execute("PRAGMA user_version").fetchone()[0] == 7
     out = tmp_path / "r.pdf"
     made = cli("report", job["id"], "--out", out, "--register", copy)
     assert made.exit_code == 0, made.output

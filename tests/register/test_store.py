@@ -293,3 +293,48 @@ def test_register_from_schema_4_migrates_on_first_use(tmp_path, cli):
     listed = cli("instruments", "list", "--json", "--register", old)
     assert json.loads(listed.stdout)[0]["serial"] == "MFT-20931"
     assert "accuracy" not in json.loads(listed.stdout)[0]  # none stated before
+
+
+def test_register_from_schema_5_migrates_on_first_use(tmp_path, cli):
+    """tests/data/register-v5.sqlite3 was written by main's code at schema 5 (the bundled
+    demo, walked with that code), before export profiles. It migrates on first use: entries
+    kept byte for byte with read_with NULL (files read as they are); an export profile can
+    then be saved and is stored with a file entry taken with that instrument. Reference: the
+    file is read with plain sqlite3."""
+    import shutil
+
+    from conftest import ROOT
+
+    old = tmp_path / "old.sqlite3"
+    shutil.copy(ROOT / "tests" / "data" / "register-v5.sqlite3", old)
+    db = sqlite3.connect(old)
+    assert db.execute("PRAGMA user_version").fetchone()[0] == 5
+    before = db.execute("SELECT uuid, raw, value_json, at, host FROM entries ORDER BY id"
+                        ).fetchall()
+    job = db.execute("SELECT short_id FROM jobs").fetchone()[0]
+    db.close()
+    result = cli("show", job, "--json", "--register", old)
+    assert result.exit_code == 0, result.stderr
+    data = json.loads(result.stdout)
+    soak = next(i for i in data["items"] if i["id"] == "heatsink.soak_log")
+    assert soak["verdict"] == "pass" and "predicted maximum" in soak["reason"]
+    db = sqlite3.connect(old)
+    assert db.execute("PRAGMA user_version").fetchone()[0] == SCHEMA_VERSION
+    assert db.execute("SELECT uuid, raw, value_json, at, host FROM entries ORDER BY id"
+                      ).fetchall() == before
+    assert db.execute("SELECT count(*) FROM entries WHERE read_with IS NOT NULL"
+                      ).fetchone()[0] == 0
+    assert db.execute("PRAGMA integrity_check").fetchone()[0] == "ok"
+    db.close()
+    assert cli("instruments", "profile", "CLAMP-2291", "--columns", "temp_c=T1",
+               "--register", old).exit_code == 0
+    log = tmp_path / "t1.csv"
+    log.write_text("time_s,T1\n" + "".join(f"{k * 60},{20 + 0.3 * k:.2f}\n" for k in range(40)))
+    answers = tmp_path / "a.yaml"
+    answers.write_text(f"water.heat.log: {{file: {log}, instrument: CLAMP-2291}}\n")
+    assert cli("walk", job, "--answers", answers, "--register", old).exit_code == 0
+    db = sqlite3.connect(old)
+    stored = db.execute("SELECT read_with FROM entries WHERE item_id = 'water.heat.log' "
+                        "ORDER BY id DESC").fetchone()[0]
+    db.close()
+    assert json.loads(stored) == {"columns": {"temp_c": "T1"}}

@@ -119,3 +119,26 @@ def test_copies_left_by_a_killed_process_are_swept(state, tmp_path, monkeypatch)
     assert not stale.exists()
     assert mine.exists()
     store.close()
+
+
+def test_a_file_that_cannot_be_read_is_asked_how_to_read(state, tmp_path):
+    """A heating log whose columns are 'when' and 'T1': the walk shows the reader's one line
+    (naming the columns found, with the path as typed, never a temporary copy) and asks how
+    to read it; the answer is stored with the entry and the check then reads the file with
+    it (reference: the values as written in the file)."""
+    log = tmp_path / "logger.csv"
+    log.write_text("when,T1\n" + "".join(f"{k * 60},{30 + 0.3 * k:.2f}\n" for k in range(40)))
+    term = Script([":goto install.cylinder.volume", "150", ":goto element.rated_power",
+                   "3 kW", ":goto water.heat.log", str(log), "temp_c=T1",
+                   "temp_c=T1,time_s=when", ":quit"])
+    assert Walk(state, term).run() == 0
+    text = term.text
+    assert "cannot read it as it is: logger.csv: line 1: no time column; the header has " \
+        "'when', 'T1'" in " ".join(text.split())
+    assert "read as> " in term.out
+    assert "commission-files-" not in text and "/tmp/" not in text.replace(str(tmp_path), "")
+    entry = state.current("water.heat.log")
+    assert entry.read_with == {"columns": {"temp_c": "T1", "time_s": "when"}}
+    result = next(r for r in state.results() if r.item.id == "water.heat.log")
+    assert result.analysis is not None
+    assert result.analysis.figures["rate_k_per_h"] == pytest.approx(18.0, rel=1e-6)

@@ -69,6 +69,9 @@ def test_walk_in_a_terminal_keeps_every_answer(cli, new_job, register_path):
     child.expect(r"install\.element\.position")
     child.sendline("1")
     child.expect("read as top entry")
+    child.expect(r"install\.element\.fraction_above")
+    child.sendline("95 %")
+    child.expect("read as 95 %")
     child.expect(r"install\.sensor\.position")
     child.sendline("thermostat pocket")
     for item in ("isolation.tester.proved", "isolation.dead", "isolation.locked"):

@@ -1,10 +1,11 @@
 """Waveform captures in CSV: a header line, then one row per sample.
 
-Columns ``voltage_v`` and ``current_a``, and ``time_s`` unless the sample rate is given.
-Other names are mapped with ``columns={"voltage_v": "U1", ...}``; extra columns are ignored.
-Raw converter counts become values by ``value = (raw - offset) * scale``. Fields are
-separated by commas (or semicolons or tabs, found from the header); the decimal point is
-'.'; lines starting with '#' are comments.
+Columns ``voltage_v`` and ``current_a``, and ``time_s`` unless the sample rate is given, or
+names with units (``U [V]``, ``I (mA)``, ``t/ms``); other names are mapped with
+``columns={"voltage_v": "U1", ...}``; extra columns are ignored. Raw converter counts become
+values by ``value = (raw - offset) * scale``. Separator, decimal mark and metadata lines
+above the header are found from the content (see ``_text``); lines starting with '#' are
+comments.
 
 The numbers are parsed by ``numpy.loadtxt`` in one pass; only when that fails is the file
 scanned again line by line to name the first bad row.
@@ -12,6 +13,7 @@ scanned again line by line to name the first bad row.
 
 from __future__ import annotations
 
+import io
 import warnings
 from dataclasses import dataclass
 
@@ -27,6 +29,8 @@ from commission.captures._text import (
     resolve_columns,
 )
 from commission.physics.waveform import fit_mains_sine, sample_rate_from_times
+
+MAINS_MIN_HZ = 40.0  # lowest mains frequency the analysis searches (physics.waveform)
 
 _EXPECTED = "time_s (or a sample rate), voltage_v, current_a"
 
@@ -49,6 +53,8 @@ class WaveformCapture:
         Current samples, positive into the premises [A].
     warnings : tuple of str
         Non-fatal findings, e.g. clipped converter readings.
+    notes : tuple of str
+        Lines above the header (the instrument's own metadata).
     """
 
     source: str
@@ -57,6 +63,7 @@ class WaveformCapture:
     voltage_v: np.ndarray
     current_a: np.ndarray
     warnings: tuple[str, ...]
+    notes: tuple[str, ...] = ()
 
     @property
     def duration_s(self):
@@ -65,7 +72,7 @@ class WaveformCapture:
 
 
 def read_capture_csv(path, *, sample_rate_hz=None, columns=None, voltage_scale=1.0,
-                     voltage_offset=0.0, current_scale=1.0, current_offset=0.0):
+                     voltage_offset=0.0, current_scale=1.0, current_offset=0.0, name=None):
     """Read a waveform capture from CSV.
 
     Parameters
@@ -77,9 +84,11 @@ def read_capture_csv(path, *, sample_rate_hz=None, columns=None, voltage_scale=1
     columns : dict, optional
         Canonical name (``time_s``, ``voltage_v``, ``current_a``) -> header name in the file.
     voltage_scale, current_scale : float, default 1
-        Volts [V] and amperes [A] per raw unit.
+        Volts [V] and amperes [A] per raw unit (after the header's own unit, if any).
     voltage_offset, current_offset : float, default 0
         Raw reading at zero volts and zero amperes, in raw units.
+    name : str, optional
+        The file's name for messages, when ``path`` is a temporary copy.
 
     Returns
     -------
@@ -96,15 +105,15 @@ def read_capture_csv(path, *, sample_rate_hz=None, columns=None, voltage_scale=1
         raise CaptureError(f"sample rate must be positive, got {sample_rate_hz!r}")
     if voltage_scale == 0 or current_scale == 0:
         raise CaptureError("a scale of zero would turn every reading into zero")
-    table = read_table(path, expected=_EXPECTED)
+    table = read_table(path, expected=_EXPECTED, name=name)
     wanted = ("voltage_v", "current_a") if sample_rate_hz is not None else (
         "time_s", "voltage_v", "current_a")
     found = resolve_columns(table, wanted, mapping=_without_time(columns, sample_rate_hz),
                             alternatives=None if sample_rate_hz is not None
                             else {"time_s": "a sample rate"})
-    names = [table.names[found[w]] for w in wanted]
-    indices = [found[w] for w in wanted]
-    data = _load_numbers(table, indices, names)
+    cols = [found[w] for w in wanted]
+    names = [c.name for c in cols]
+    data = _load_numbers(table, [c.index for c in cols], names)
     if data.shape[0] == 0:
         raise CaptureError(
             f"{table.source}: has a header but no data rows; expected one row per sample "
@@ -115,7 +124,7 @@ def read_capture_csv(path, *, sample_rate_hz=None, columns=None, voltage_scale=1
     raw_i = data[:, wanted.index("current_a")]
 
     if sample_rate_hz is None:
-        times = data[:, 0]
+        times = cols[0].convert(data[:, 0])
         steps = np.diff(times)
         if np.any(steps <= 0):
             row = int(np.flatnonzero(steps <= 0)[0]) + 1
@@ -132,11 +141,13 @@ def read_capture_csv(path, *, sample_rate_hz=None, columns=None, voltage_scale=1
 
     warnings = tuple(w for w in (clipping_warning(table.source, names[-2], raw_v),
                                  clipping_warning(table.source, names[-1], raw_i)) if w)
-    voltage = (raw_v - voltage_offset) * voltage_scale
-    current = (raw_i - current_offset) * current_scale
+    vcol, icol = found["voltage_v"], found["current_a"]
+    voltage = vcol.convert((raw_v - voltage_offset) * voltage_scale)
+    current = icol.convert((raw_i - current_offset) * current_scale)
     check_capture_samples(table.source, rate, voltage, current,
                           voltage_name=names[-2], current_name=names[-1])
-    return WaveformCapture(table.source, rate, start, voltage, current, warnings)
+    return WaveformCapture(table.source, rate, start, voltage, current, warnings,
+                           table.notes)
 
 
 def _without_time(columns, sample_rate_hz):
@@ -152,9 +163,19 @@ def _load_numbers(table, indices, names):
     try:
         with warnings.catch_warnings():
             warnings.simplefilter("ignore", UserWarning)  # "input contained no data"
-            data = np.loadtxt(table.path, delimiter=table.delimiter, usecols=indices,
-                              comments="#", skiprows=table.header_line, ndmin=2, dtype=float,
-                              quotechar='"', encoding=table.encoding)
+            if table.decimal == ",":
+                # Decimal commas: the body is read once into memory with its commas made
+                # points (the separator is then ';' or a tab, never ',').
+                with open(table.path, encoding=table.encoding, errors="replace") as fh:
+                    text = fh.read().replace(",", ".")
+                source = io.StringIO(text)
+                data = np.loadtxt(source, delimiter=table.delimiter, usecols=indices,
+                                  comments="#", skiprows=table.header_line, ndmin=2,
+                                  dtype=float, quotechar='"')
+            else:
+                data = np.loadtxt(table.path, delimiter=table.delimiter, usecols=indices,
+                                  comments="#", skiprows=table.header_line, ndmin=2,
+                                  dtype=float, quotechar='"', encoding=table.encoding)
     except ValueError as exc:
         message = bad_row_message(table, indices, names)
         raise CaptureError(message or f"{table.source}: cannot read the numbers ({exc})") from None
@@ -197,6 +218,8 @@ def check_two_cycles(source, rate, voltage_head, total_samples):
     total_samples : int
         Samples in the whole capture [1].
     """
+    if total_samples >= 2.0 * rate / MAINS_MIN_HZ:
+        return  # two cycles even of the slowest mains accepted; the analysis checks the rest
     try:
         fit = fit_mains_sine(rate, voltage_head)
     except ValueError as exc:

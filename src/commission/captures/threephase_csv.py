@@ -112,13 +112,13 @@ def read_threephase_capture_csv(path, *, sample_rate_hz=None, columns=None):
         raise CaptureError(f"{table.source}: has current_3_a but no current_2_a; number the "
                            "clamps 1, 2, 3 as they are meant for L1, L2, L3")
     keys = [k for k in ("time_s", *VOLTAGES, *CURRENTS, NEUTRAL) if k in found]
-    names = [table.names[found[k]] for k in keys]
-    data = _load_numbers(table, [found[k] for k in keys], names)
+    names = [found[k].name for k in keys]
+    data = _load_numbers(table, [found[k].index for k in keys], names)
     if data.shape[0] == 0:
         raise CaptureError(f"{table.source}: has a header but no data rows; expected one row "
                            f"per sample ({_EXPECTED})")
     first_nonfinite(table, [data[:, k] for k in range(len(keys))], names)
-    col = {k: data[:, n] for n, k in enumerate(keys)}
+    col = {k: found[k].convert(data[:, n]) for n, k in enumerate(keys)}
     if sample_rate_hz is None:
         times = col["time_s"]
         steps = np.diff(times)
@@ -203,7 +203,7 @@ def read_phase_power_log(path, *, columns=None):
         raise CaptureError(f"{table.source}: line {table.header_line}: no grid power column; "
                            f"the header has {shown}, expected grid_l1_w, grid_l2_w, grid_l3_w "
                            "(per phase) and/or grid_w (their sum)")
-    rows = _rows(table, found, time_key, "regulation")
+    rows, _findings = _rows(table, found, time_key, "regulation", None, None)
     time_s, _ = rows.pop(time_key)
     phases = {f"L{n + 1}": rows[k] for n, k in enumerate(PHASE_POWER) if k in rows}
     return PhasePowerLog(table.source, time_s, phases, rows.get("grid_w"))

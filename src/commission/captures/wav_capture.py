@@ -51,8 +51,10 @@ class WavCaptureStream:
     """
 
     def __init__(self, path, *, voltage_full_scale_v, current_full_scale_a,
-                 voltage_channel=1, current_channel=2, chunk_frames=_DEFAULT_CHUNK_FRAMES):
-        self.source = os.fspath(path)
+                 voltage_channel=1, current_channel=2, chunk_frames=_DEFAULT_CHUNK_FRAMES,
+                 name=None):
+        self.source = name or os.fspath(path)
+        self._path = os.fspath(path)
         if not (voltage_full_scale_v and current_full_scale_a):
             raise CaptureError(f"{self.source}: full-scale values must be non-zero (volts and "
                                "amperes at full scale)")
@@ -62,7 +64,7 @@ class WavCaptureStream:
         self._i_scale = float(current_full_scale_a)
         self._chunk = int(chunk_frames)
         self._warn: list[str] = []
-        with _open(self.source) as w:
+        with _open(self._path, self.source) as w:
             self.channels = w.getnchannels()
             self.sample_width_bytes = w.getsampwidth()
             self.sample_rate_hz = float(w.getframerate())
@@ -105,7 +107,7 @@ class WavCaptureStream:
         head: list[np.ndarray] = []
         head_got = 0
         head_n = max(8, int(_HEAD_S * self.sample_rate_hz))
-        with _open(self.source) as w:
+        with _open(self._path, self.source) as w:
             remaining = self.frames
             while remaining > 0:
                 raw = w.readframes(min(self._chunk, remaining))
@@ -153,9 +155,10 @@ class WavCaptureStream:
                 )
 
 
-def _open(source):
+def _open(path, source=None):
+    source = source or path
     try:
-        return wave.open(source, "rb")
+        return wave.open(path, "rb")
     except FileNotFoundError:
         raise CaptureError(f"{source}: no such file") from None
     except IsADirectoryError:
@@ -195,8 +198,8 @@ def _decode(raw, width, channels):
 
 
 def open_capture_wav(path, *, voltage_full_scale_v, current_full_scale_a, voltage_channel=1,
-                     current_channel=2, chunk_frames=_DEFAULT_CHUNK_FRAMES):
-    """Open a WAV capture for reading in chunks.
+                     current_channel=2, chunk_frames=_DEFAULT_CHUNK_FRAMES, name=None):
+    """Open a WAV capture for reading in chunks (``name``: the file's name for messages).
 
     Parameters
     ----------
@@ -218,12 +221,12 @@ def open_capture_wav(path, *, voltage_full_scale_v, current_full_scale_a, voltag
     return WavCaptureStream(path, voltage_full_scale_v=voltage_full_scale_v,
                             current_full_scale_a=current_full_scale_a,
                             voltage_channel=voltage_channel, current_channel=current_channel,
-                            chunk_frames=chunk_frames)
+                            chunk_frames=chunk_frames, name=name)
 
 
 def read_capture_wav(path, *, voltage_full_scale_v, current_full_scale_a, voltage_channel=1,
-                     current_channel=2):
-    """Read a whole WAV capture into memory.
+                     current_channel=2, name=None):
+    """Read a whole WAV capture into memory (``name``: the file's name for messages).
 
     Parameters
     ----------
@@ -248,7 +251,7 @@ def read_capture_wav(path, *, voltage_full_scale_v, current_full_scale_a, voltag
     stream = WavCaptureStream(path, voltage_full_scale_v=voltage_full_scale_v,
                               current_full_scale_a=current_full_scale_a,
                               voltage_channel=voltage_channel, current_channel=current_channel,
-                              chunk_frames=max(1, _frames_hint(path)))
+                              chunk_frames=max(1, _frames_hint(path, name)), name=name)
     parts = list(stream)  # the stream checks voltage, current and the two cycles
     voltage = np.concatenate([p[0] for p in parts])
     current = np.concatenate([p[1] for p in parts])
@@ -256,8 +259,8 @@ def read_capture_wav(path, *, voltage_full_scale_v, current_full_scale_a, voltag
                            stream.warnings)
 
 
-def _frames_hint(path):
-    with _open(os.fspath(path)) as w:
+def _frames_hint(path, name=None):
+    with _open(os.fspath(path), name) as w:
         return w.getnframes()
 
 

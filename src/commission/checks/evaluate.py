@@ -47,6 +47,7 @@ class Result:
     history: list[Entry] = field(default_factory=list)
     applicable: bool = True
     section_title: str = ""
+    analysis: Any = None  # the analysis of the item's file, when a check analysed one
 
     @property
     def answered(self) -> bool:
@@ -120,7 +121,7 @@ def evaluate(
                                   source="installer's statement"))
             continue
         outcome = _judge(item, entry.value, current, applicable, checklist, files, by_id,
-                         instruments)
+                         instruments, getattr(entry, "read_with", None))
         verdict, reason = outcome.verdict, outcome.reason
         # An instrument's calibration speaks only for what it measured: a declared value
         # (nameplate, setting, size) stamped by an older release is not judged by it.
@@ -135,7 +136,8 @@ def evaluate(
             else:
                 reason = f"{reason}; {note}"
         results.append(Result(**base, verdict=verdict, reason=reason, source=outcome.source,
-                              measured=outcome.measured, expected=outcome.expected))
+                              measured=outcome.measured, expected=outcome.expected,
+                              analysis=outcome.analysis))
     return results
 
 
@@ -181,7 +183,8 @@ def _uncertainty(item: Item | None, entry: Entry | None,
 def _judge(item: Item, value: Any, current: dict[str, Entry], applicable: dict[str, bool],
            checklist: Checklist, files: Any = None,
            by_id: dict[str, Item] | None = None,
-           instruments: dict[int, Instrument] | None = None) -> Outcome:
+           instruments: dict[int, Instrument] | None = None,
+           read_with: Any = None) -> Outcome:
     source = _item_source(item, checklist)
     if item.check is None:
         if item.kind == "confirm":
@@ -237,7 +240,8 @@ def _judge(item: Item, value: Any, current: dict[str, Entry], applicable: dict[s
     ctx = Context(item.id, value, inputs, refs, params,
                   {"files": files, "uncertainty": _uncertainty(item, own, instruments),
                    "input_uncertainty": input_u, "input_typed": typed,
-                   "own_typed": (own.raw, own.unit_typed) if own is not None else None})
+                   "own_typed": (own.raw, own.unit_typed) if own is not None else None,
+                   "read_with": read_with})
     try:
         return definition.fn(ctx)
     except MissingInput as missing:

@@ -2,15 +2,21 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass
-from typing import Any
-
+from ..analyses.heating import (
+    DEFAULT_BAND,
+    DEFAULT_FILL_TEMP_C,
+    DEFAULT_SERVED_FRACTIONS,
+    HeatingSettings,
+)
+from ..analyses.heating import (
+    SRC_HEATING as SRC_HEATING_LOG,
+)
 from ..units import format_number as f
 from .registry import FAIL, PASS, REVIEW, Context, Expected, Input, Measured, Outcome, Param, check
 
 SRC_HEATING = (
-    "dT/dt = P/(m·cp), m = ρ·V at filling; ρ, cp from IAPWS-95; band 0.85–1.10 common "
-    "practice"
+    "dT/dt = P/(m·cp), m = ρ·V of the water above the element at filling; ρ, cp from "
+    "IAPWS-95; band 0.85–1.10 common practice"
 )
 CAUSES = ("the thermostat cycled, a failed element section, a smaller volume than stated, "
           "or a sensor outside the heated zone")
@@ -27,18 +33,42 @@ def expected_power_w(ctx: Context) -> tuple[float, str]:
     return p, f"{f(p)} W nameplate"
 
 
-# Inputs and limits shared by the two heating checks (readings, and a logged run).
+# Inputs and limits shared by the two heating checks (readings, and a logged run); the
+# defaults are the heating analysis's, one place for the command and the checks.
 POWER_INPUTS = {
     "volume": Input("stored volume (volume reading)"),
     "rated_power": Input("element nameplate power"),
     "cold_resistance": Input("element cold resistance", required=False),
     "supply_voltage": Input("measured supply voltage", required=False),
+    "position": Input("where the element sits (choice item)", required=False),
+    "fraction_above": Input("share of the cylinder above the element's lowest point, in %",
+                            required=False),
 }
 BAND_PARAMS = {
-    "fill_temp_c": Param(15.0, "°C", "common practice: cold mains water (from memory)"),
-    "band_low": Param(0.85, None, "common practice"),
-    "band_high": Param(1.10, None, "common practice"),
+    "fill_temp_c": Param(DEFAULT_FILL_TEMP_C, "°C",
+                         "common practice: cold mains water (from memory)"),
+    "band_low": Param(DEFAULT_BAND[0], None, "common practice"),
+    "band_high": Param(DEFAULT_BAND[1], None, "common practice"),
+    "served_fractions": Param(DEFAULT_SERVED_FRACTIONS, None,
+                              "common practice (from memory): an element heats the water "
+                              "above its lowest point; fraction of the cylinder per position"),
 }
+
+
+def heating_settings(ctx: Context, power_w: float) -> HeatingSettings:
+    """The heating analysis's settings from the item's inputs and parameters."""
+    fraction = None
+    if ctx.has("fraction_above"):
+        fraction = float(ctx.input("fraction_above")) / 100.0
+    return HeatingSettings(
+        power_w=power_w,
+        volume_l=float(ctx.input("volume")) * 1000.0,
+        element_position=str(ctx.input("position")) if ctx.has("position") else None,
+        fraction_above=fraction,
+        served_fractions=str(ctx.param("served_fractions")),
+        fill_temp_c=float(ctx.param("fill_temp_c")),
+        band=(float(ctx.param("band_low")), float(ctx.param("band_high"))),
+    )
 
 
 @check(
@@ -58,24 +88,27 @@ BAND_PARAMS = {
     },
 )
 def heating_rate(ctx: Context) -> Outcome:
+    from ..analyses.heating import served_volume
     from ..physics import water
 
     end_c = float(ctx.value)
     start_c = float(ctx.input("start_temp"))
     seconds = float(ctx.input("minutes"))
-    volume_l = float(ctx.input("volume")) * 1000.0
     power_w, power_text = expected_power_w(ctx)
-    mass = float(water.mass_kg(volume_l, ctx.param("fill_temp_c")))
+    settings = heating_settings(ctx, power_w)
+    volume_l, volume_text = served_volume(settings)
+    mass = float(water.mass_kg(volume_l, settings.fill_temp_c))
     mean_c = 0.5 * (start_c + end_c)
     expected_rate = float(water.heating_rate_k_per_h(power_w, mass, mean_c))
     rate = (end_c - start_c) / (seconds / 3600.0)
-    lo, hi = ctx.param("band_low"), ctx.param("band_high")
+    lo, hi = settings.band
     expected = Expected("K/h", min=round(lo * expected_rate, 2), max=round(hi * expected_rate, 2))
     measured = Measured(round(rate, 2), "K/h")
     delivered = float(water.delivered_power_w(rate, mass, mean_c))
     ratio = rate / expected_rate
     text = (f"{rate:.1f} K/h against {expected_rate:.1f} K/h expected for {power_text} into "
-            f"{mass:.0f} kg (ratio {ratio:.2f}, {delivered:.0f} W delivered)")
+            f"{mass:.0f} kg, volume served {volume_text} (ratio {ratio:.2f}, {delivered:.0f} W "
+            "delivered)")
     if end_c - start_c < ctx.param("min_rise_k"):
         return Outcome(REVIEW, f"{text}; a rise of {f(end_c - start_c)} K is too small to judge "
                        "— run longer", SRC_HEATING, measured, expected)
@@ -89,123 +122,21 @@ def heating_rate(ctx: Context) -> Outcome:
     return Outcome(PASS, text, SRC_HEATING, measured, expected)
 
 
-# -- heating from a logged temperature rise -----------------------------------------------
-# Our defaults unless a source is named; shared by the heating_log check and
-# `commission analyse heating`.
-LOG_MIN_RISE_K = 3.0  # common practice: smaller rises are lost in sensor resolution
-LOG_MIN_POINTS = 5  # our default: fewer readings cannot show whether the line is straight
-Z95 = 1.96  # two-sided 95 % normal quantile, for the interval of the ratio
-
-
-@dataclass(frozen=True)
-class HeatingAssessment:
-    fit: Any  # physics.water.HeatingRateFit
-    expected_k_per_h: float
-    ratio: float
-    mass_kg: float
-    cp_j_per_kg_k: float
-    delivered_w: float
-    verdict: str
-    reason: str
-    whole_log: bool
-
-
-def assess_heating_log(time_s, temp_c, *, power_w: float, volume_l: float,
-                       fill_temp_c: float = 15.0,
-                       band: tuple[float, float] = (0.85, 1.10)) -> HeatingAssessment:
-    """Fit the steady part of a heating log and judge it against P/(m·cp).
-
-    pass inside the band; fail below it; review above it, or when the log is too short or
-    noisy to say. The ratio carries a 95 % interval from the slope's standard error; the
-    verdict is pass or fail only when the whole interval lies on one side of a band edge.
-    """
-    from ..physics import water
-
-    mass = float(water.mass_kg(volume_l, fill_temp_c))
-    fit = water.fit_heating_rate(time_s, temp_c)
-    expected = float(water.heating_rate_k_per_h(power_w, mass, fit.mean_temp_c))
-    whole_log = False
-    if fit.plateau_from_s is not None and _log_too_short(fit, expected):
-        # The log levels off almost at once (a dead element, or a thermostat that opened
-        # early): judge the whole log instead of the few readings before the plateau.
-        fit = water.fit_heating_rate(time_s, temp_c, detect_plateau=False)
-        expected = float(water.heating_rate_k_per_h(power_w, mass, fit.mean_temp_c))
-        whole_log = True
-    delivered = float(water.delivered_power_w(fit.rate_k_per_h, mass, fit.mean_temp_c))
-    cp = float(water.heat_capacity_j_per_kg_k(fit.mean_temp_c))
-    ratio = fit.rate_k_per_h / expected
-    verdict, reason = _log_verdict(fit, expected, ratio, *band)
-    if whole_log:
-        reason += ("; the log shows no steady rise before it levels off, so the whole log "
-                   "was fitted")
-    return HeatingAssessment(fit, expected, ratio, mass, cp, delivered, verdict, reason,
-                             whole_log)
-
-
-def _log_too_short(fit, expected) -> bool:
-    span_h = (fit.fit_end_s - fit.fit_start_s) / 3600.0
-    return expected * span_h < LOG_MIN_RISE_K or fit.points < LOG_MIN_POINTS
-
-
-def _log_verdict(fit, expected, ratio, lo, hi) -> tuple[str, str]:
-    span_h = (fit.fit_end_s - fit.fit_start_s) / 3600.0
-    shown = (f"{fit.rate_k_per_h:.2f} K/h measured against {expected:.2f} K/h expected "
-             f"(ratio {ratio:.2f}, band {lo:g}-{hi:g})")
-    expected_rise = expected * span_h
-    if expected_rise < LOG_MIN_RISE_K:
-        return REVIEW, (f"{shown}; the fitted span of {span_h * 60:.0f} min should give "
-                        f"only {expected_rise:.1f} K, too little to judge (at least "
-                        f"{LOG_MIN_RISE_K:g} K, common practice): log for longer")
-    if fit.points < LOG_MIN_POINTS:
-        return REVIEW, (f"{shown}; only {fit.points} readings in the fitted span (at least "
-                        f"{LOG_MIN_POINTS}, our default): log more often")
-    half = Z95 * fit.rate_stderr_k_per_h / expected
-    if ratio + half < lo:
-        return FAIL, (f"{shown}: the water heats too slowly. Usual causes: thermostat "
-                      "cycling (check the log for a plateau or a saw-tooth), a failed "
-                      "element section, a wrong volume, a sensor outside the heated zone "
-                      "(ask where it sits and which volume the element serves)")
-    if ratio - half > hi:
-        return REVIEW, (f"{shown}: faster than the element can heat the whole volume; the "
-                        "sensor probably sits in the hot layer above the element, or the "
-                        "element serves a smaller volume than stated: judge by hand")
-    if ratio - half >= lo and ratio + half <= hi:
-        return PASS, shown
-    return REVIEW, (f"{shown}; the log is too noisy to say (95 % interval of the ratio "
-                    f"{ratio - half:.2f}-{ratio + half:.2f} crosses a band edge): check "
-                    "the sensor's contact and log for longer")
-
-
 @check(
     "heating_log",
     summary="heating rate fitted from a temperature log against the element's power",
-    source=SRC_HEATING + "; steady part fitted by least squares",
+    source=SRC_HEATING_LOG,
     kinds=("file",),
     inputs=dict(POWER_INPUTS),
     params=dict(BAND_PARAMS),
 )
 def heating_log(ctx: Context) -> Outcome:
-    from ..captures import CaptureError, read_heating_log
+    from .recordings import file_analysis, outcome_of
 
     power_w, power_text = expected_power_w(ctx)
-    volume_l = float(ctx.input("volume")) * 1000.0
-    path = ctx.file_path(ctx.value)
-    band = (float(ctx.param("band_low")), float(ctx.param("band_high")))
-
-    def run():
-        try:
-            log = read_heating_log(path)
-            return assess_heating_log(log.time_s, log.temp_c, power_w=power_w,
-                                      volume_l=volume_l, fill_temp_c=ctx.param("fill_temp_c"),
-                                      band=band)
-        except (CaptureError, ValueError) as exc:
-            return ValueError(str(exc))
-
-    judged = ctx.memo(("heating_log", ctx.value["sha256"], power_w, volume_l, band), run)
-    if isinstance(judged, Exception):
-        raise judged
-    expected = Expected("K/h", min=round(band[0] * judged.expected_k_per_h, 2),
-                        max=round(band[1] * judged.expected_k_per_h, 2))
-    return Outcome(judged.verdict, f"{judged.reason}; power {power_text}, "
-                   f"{judged.delivered_w:.0f} W delivered into {judged.mass_kg:.0f} kg",
-                   SRC_HEATING, Measured(round(judged.fit.rate_k_per_h, 2), "K/h"), expected)
+    a = file_analysis(ctx, ctx.value, "heating", heating_settings(ctx, power_w))
+    out = outcome_of(a)
+    return Outcome(out.verdict, f"{a.reason}; power {power_text}, "
+                   f"{a.figures['delivered_power_w']:.0f} W delivered into "
+                   f"{a.figures['mass_kg']:.0f} kg", out.source, out.measured, out.expected,
+                   analysis=a)

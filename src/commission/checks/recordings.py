@@ -1,8 +1,10 @@
 """Checks that read files taken on site: waveform captures, soak and regulation logs.
 
-The numbers come from :mod:`commission.physics`; the files are read by
-:mod:`commission.captures`. A file the check cannot read gives ``review`` with
-the reader's one-line reason, never an exception.
+Each check gathers its settings from the checklist (inputs and parameters) and calls the
+file kind's analysis in :mod:`commission.analyses` — the same function, with the same
+defaults, that ``commission analyse`` and the record's charts call — and returns its verdict
+as an Outcome carrying the analysis. A file the check cannot read gives ``review`` with
+the reader's one-line reason (naming the file as recorded), never an exception.
 """
 
 from __future__ import annotations
@@ -11,6 +13,14 @@ import math
 from pathlib import Path
 from typing import Any
 
+from ..analyses.capture import SRC_CLAMP
+from ..analyses.regulation import DEFAULT_HOLD_S, SRC_REGULATION
+from ..analyses.soak import (
+    DEFAULT_MAX_RMSE_K,
+    DEFAULT_MIN_COVERAGE,
+    DEFAULT_RISE_FACTOR,
+    SRC_SOAK,
+)
 from ..units import format_number as f
 from .registry import (
     FAIL,
@@ -20,6 +30,7 @@ from .registry import (
     Expected,
     Input,
     Measured,
+    MissingInput,
     Outcome,
     Param,
     check,
@@ -29,34 +40,54 @@ from .registry import (
 SIGN = "positive power = import"
 
 
-def _capture(ctx: Context, value: Any):
-    """Analyse a recorded capture file (CSV, or WAV with full-scale parameters)."""
-    from ..captures import CaptureError, read_capture_csv, read_capture_wav
-    from ..physics.waveform import analyse
+def read_settings(ctx: Context):
+    """How to read the item's file: the profile stored with its entry, with the
+    checklist's WAV full-scale parameters where the item has them."""
+    from ..analyses import ReadSettings
+
+    read = ReadSettings.from_json(ctx.extra.get("read_with"))
+    v_fs = ctx.params.get("wav_v_full_scale")
+    i_fs = ctx.params.get("wav_i_full_scale")
+    if v_fs and i_fs and read.v_scale is None and read.i_scale is None:
+        read = read.merged(ReadSettings(v_scale=float(v_fs), i_scale=float(i_fs)))
+    return read
+
+
+def file_analysis(ctx: Context, value: Any, kind: str, settings: Any, read: Any = None):
+    """The analysis of a recorded file (``commission.analyses``), computed once per file,
+    kind and settings; a file it cannot read raises ValueError with the reader's line,
+    naming the file by its recorded name (never a temporary copy)."""
+    from .. import analyses
+    from ..captures import CaptureError
 
     path: Path = ctx.file_path(value)
-    name = str(value.get("name", "")).lower()
+    name = str(value.get("name", "")) or None
+    read = read if read is not None else read_settings(ctx)
+    run_fn = {"capture": analyses.analyse_capture, "heating": analyses.analyse_heating,
+              "soak": analyses.analyse_soak, "regulation": analyses.analyse_regulation}[kind]
 
     def run():
         try:
-            if name.endswith(".wav"):
-                v_fs, i_fs = ctx.param("wav_v_full_scale"), ctx.param("wav_i_full_scale")
-                if not v_fs or not i_fs:
-                    return ValueError("a WAV capture needs the parameters wav_v_full_scale "
-                                      "and wav_i_full_scale in the checklist")
-                cap = read_capture_wav(path, voltage_full_scale_v=v_fs,
-                                       current_full_scale_a=i_fs)
-            else:
-                cap = read_capture_csv(path)
-            return analyse(cap.sample_rate_hz, cap.voltage_v, cap.current_a)
+            return run_fn(path, settings, read, name=name)
         except (CaptureError, ValueError) as exc:
-            return ValueError(str(exc))
+            return ValueError(" ".join(str(exc).split()))
 
-    result = ctx.memo(("capture", value["sha256"], name, ctx.param("wav_v_full_scale"),
-                       ctx.param("wav_i_full_scale")), run)
+    result = ctx.memo(("analysis", kind, value["sha256"], repr(settings), repr(read)), run)
     if isinstance(result, Exception):
         raise result
     return result
+
+
+def outcome_of(a) -> Outcome:
+    """An analysis as the check's Outcome (verdict, reason, source, measured, expected)."""
+    measured = None
+    if a.measured is not None and a.measured[0] is not None:
+        measured = Measured(a.measured[0], a.measured[1])
+    expected = None
+    if a.expected is not None:
+        e = dict(a.expected)
+        expected = Expected(e.pop("unit", None), **e)
+    return Outcome(a.verdict, a.reason, a.source, measured, expected, analysis=a)
 
 
 WAV_PARAMS = {
@@ -66,39 +97,36 @@ WAV_PARAMS = {
                               "amperes at full scale, for WAV captures"),
 }
 
-SRC_CLAMP = ("angle of the current fundamental to the voltage fundamental, DFT per "
-             "IEC 61000-4-7; ±45° band our default; power per IEEE 1459-2010")
+
+def _capture(ctx: Context, value: Any, settings: Any = None):
+    from ..analyses import CaptureSettings
+
+    return file_analysis(ctx, value, "capture", settings or CaptureSettings())
+
+
 
 
 @check(
     "clamp_capture",
-    summary="clamp direction and phase from a waveform capture",
+    summary="clamp direction and phase from a waveform capture, judged by its state",
     source=SRC_CLAMP,
     kinds=("file",),
-    inputs={"expect": Input("'import' or 'export' at the moment of the capture",
-                            required=False)},
+    inputs={
+        "state": Input("the state the capture was taken in (choice item)", required=False),
+        "expect": Input("'import' or 'export' at the moment of the capture, for checklists "
+                        "without a state item", required=False),
+    },
     params=dict(WAV_PARAMS),
 )
 def clamp_capture(ctx: Context) -> Outcome:
-    from ..physics.waveform import classify_clamp
+    from ..analyses import CaptureSettings
 
+    state = str(ctx.input("state")) if ctx.has("state") else None
     expect = str(ctx.input("expect")) if ctx.has("expect") else None
-    if expect not in (None, "import", "export"):
-        raise ValueError(f"expect must be import or export, not {expect!r}")
-    a = _capture(ctx, ctx.value)
-    judged = classify_clamp(a.phase_deg, expect)
-    figures = (f"P {a.p_w:+.0f} W ({SIGN}), φ1 {a.phase_deg:+.1f}°, {a.frequency_hz:.2f} Hz, "
-               f"{a.v_rms:.1f} V, {a.i_rms:.2f} A")
-    if expect == "export":
-        expected = Expected("°", value="|φ1| ≥ 135")
-    else:
-        expected = Expected("°", min=-45.0, max=45.0)
-    return Outcome(judged.verdict, f"{figures}: {judged.reason}", SRC_CLAMP,
-                   Measured(round(a.phase_deg, 2), "°"), expected)
-
-
-SRC_SOAK = ("lumped first-order model T∞ − (T∞ − T0)·e^(−t/τ), Incropera, Fundamentals of "
-            "Heat and Mass Transfer; 95 % interval from the fit")
+    if state is not None:
+        expect = None  # the state says what is expected
+    a = _capture(ctx, ctx.value, CaptureSettings(state=state, expect=expect))
+    return outcome_of(a)
 
 
 @check(
@@ -107,49 +135,39 @@ SRC_SOAK = ("lumped first-order model T∞ − (T∞ − T0)·e^(−t/τ), Incro
     source=SRC_SOAK,
     kinds=("file",),
     inputs={
-        "ambient": Input("ambient temperature during the soak"),
+        "ambient": Input("ambient temperature during the soak (unless the log has an ambient "
+                         "column)", required=False),
         "worst_ambient": Input("worst expected ambient", required=False),
         "limit": Input("heatsink limit temperature"),
     },
     params={
-        "rise_factor": Param(1.0, None, "CHECKS.md: 1.15–1.20 covers +10 % supply voltage"),
-        "max_rmse_k": Param(1.0, "K", "our default: a poorer fit is not trusted"),
+        "rise_factor": Param(DEFAULT_RISE_FACTOR, None,
+                             "CHECKS.md: conduction loss and rise +15–20 % at +10 % supply "
+                             "voltage; 1.2 covers it"),
+        "max_rmse_k": Param(DEFAULT_MAX_RMSE_K, "K", "our default: a poorer fit is not trusted"),
+        "min_coverage": Param(DEFAULT_MIN_COVERAGE, None,
+                              "CHECKS.md: a steady state is pinned down once the log covers "
+                              "about three of the slowest time constant"),
     },
 )
 def heatsink_soak(ctx: Context) -> Outcome:
-    from ..captures import CaptureError, read_soak_log
-    from ..physics import thermal
+    from ..analyses import SoakSettings
 
-    ambient = float(ctx.input("ambient"))
-    worst = float(ctx.input("worst_ambient")) if ctx.has("worst_ambient") else None
-    limit = float(ctx.input("limit"))
-    path = ctx.file_path(ctx.value)
-
-    def run():
-        try:
-            log = read_soak_log(path)
-            return thermal.fit_first_order(log.time_s, log.temp_c)
-        except (CaptureError, ValueError) as exc:
-            return ValueError(str(exc))
-
-    fit = ctx.memo(("soak", ctx.value["sha256"]), run)
-    if isinstance(fit, Exception):
-        raise fit
-    prediction = thermal.predict_worst_case(fit, ambient, worst_ambient_c=worst,
-                                            rise_factor=ctx.param("rise_factor"))
-    judged = thermal.soak_verdict(fit, prediction, limit, max_rmse_k=ctx.param("max_rmse_k"))
-    lo, hi = prediction.predicted_max_ci_c
-    where = f" at {f(worst)} °C ambient" if worst is not None else ""
-    reason = (f"τ {fit.tau_s / 60:.1f} min, log covers {fit.time_constants_covered:.1f} τ; "
-              f"predicted maximum{where} {prediction.predicted_max_c:.1f} °C "
-              f"({lo:.1f}–{hi:.1f} °C): {judged.reason.replace('degC', '°C')}")
-    return Outcome(judged.verdict, reason, SRC_SOAK,
-                   Measured(round(prediction.predicted_max_c, 2), "°C"),
-                   Expected("°C", max=limit))
-
-
-SRC_REGULATION = ("common practice: grid power held in the installer's dead band "
-                  "(mean within ±D, 95 % of readings within ±3·D)")
+    settings = SoakSettings(
+        limit_c=float(ctx.input("limit")),
+        ambient_c=float(ctx.input("ambient")) if ctx.has("ambient") else None,
+        worst_ambient_c=float(ctx.input("worst_ambient")) if ctx.has("worst_ambient") else None,
+        rise_factor=float(ctx.param("rise_factor")),
+        max_rmse_k=float(ctx.param("max_rmse_k")),
+        min_coverage=float(ctx.param("min_coverage")),
+    )
+    try:
+        a = file_analysis(ctx, ctx.value, "soak", settings)
+    except ValueError as exc:
+        if settings.ambient_c is None and "no ambient column" in str(exc):
+            raise MissingInput("ambient", ctx.refs.get("ambient")) from None
+        raise
+    return outcome_of(a)
 
 
 @check(
@@ -158,31 +176,15 @@ SRC_REGULATION = ("common practice: grid power held in the installer's dead band
     source=SRC_REGULATION,
     kinds=("file",),
     inputs={"dead_band": Input("dead band D in W (power reading or constant)")},
+    params={"settle_hold_s": Param(DEFAULT_HOLD_S, "s",
+                                   "our default: time in the band that counts as settled")},
 )
 def regulation_log(ctx: Context) -> Outcome:
-    from ..captures import CaptureError, read_regulation_log
-    from ..physics import regulation
+    from ..analyses import RegulationSettings
 
-    band = float(ctx.input("dead_band"))
-    path = ctx.file_path(ctx.value)
-
-    def run():
-        try:
-            log = read_regulation_log(path)
-            return regulation.grid_statistics(log.time_s, log.grid_w, diverter_w=log.diverter_w)
-        except (CaptureError, ValueError) as exc:
-            return ValueError(str(exc))
-
-    stats = ctx.memo(("regulation", ctx.value["sha256"]), run)
-    if isinstance(stats, Exception):
-        raise stats
-    judged = regulation.regulation_verdict(stats, band)
-    settle = (f"; settled {stats.settling_s:.0f} s after the largest step"
-              if stats.settling_s is not None else "")
-    reason = (f"{judged.reason.replace('+-', '±')} ({SIGN}); exported "
-              f"{stats.exported_wh:.1f} Wh, imported {stats.imported_wh:.1f} Wh{settle}")
-    return Outcome(judged.verdict, reason, SRC_REGULATION,
-                   Measured(round(stats.mean_grid_w, 1), "W"), Expected("W", min=-band, max=band))
+    settings = RegulationSettings(dead_band_w=float(ctx.input("dead_band")),
+                                  hold_s=float(ctx.param("settle_hold_s")))
+    return outcome_of(file_analysis(ctx, ctx.value, "regulation", settings))
 
 
 SRC_HARMONICS = ("IEC 61000-3-2 Class A Table 1 (from memory; a type test, indicative on site); "
@@ -218,9 +220,9 @@ def harmonic_emission(ctx: Context) -> Outcome:
     u = float(ctx.input("supply_voltage"))
     if ctx.has("capture"):
         a = _capture(ctx, ctx.input("capture"))
-        currents = {h: x for h, x in zip(a.harmonic_orders, a.i_harmonics_a, strict=True)
-                    if x is not None}
-        basis = f"measured at part output ({a.p_w:.0f} W)"
+        currents = {h["order"]: h["i_rms"] for h in a.figures["harmonics"]
+                    if h["i_rms"] is not None}
+        basis = f"measured at part output ({a.figures['p_w']:.0f} W)"
     else:
         fraction = float(ctx.param("fraction"))
         # Solved once per job state, not on every re-evaluation during the walk.

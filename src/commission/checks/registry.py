@@ -99,6 +99,7 @@ class Outcome:
     source: str
     measured: Measured | None = None
     expected: Expected | None = None
+    analysis: Any = None  # the file's analysis (commission.analyses.Analysis), for charts
 
 
 @dataclass(frozen=True)

@@ -358,6 +358,7 @@ SRC_REGULATION_BILLED = ("common practice (grid settles in a dead band around ze
             "target": Input("what the diverter regulates (choice item)")},
 )
 def regulation_log_billed(ctx: Context) -> Outcome:
+    from ..analyses.regulation import judge_stats
     from ..captures import CaptureError
     from ..captures.threephase_csv import read_phase_power_log
     from ..physics import regulation
@@ -395,10 +396,10 @@ def regulation_log_billed(ctx: Context) -> Outcome:
     verdicts, parts, means = [], [], []
     for label, grid in series.items():
         stats = regulation.grid_statistics(log.time_s, grid)
-        judged = regulation.regulation_verdict(stats, band)
-        verdicts.append(judged.verdict)
+        verdict, reason = judge_stats(stats, band)
+        verdicts.append(verdict)
         means.append(stats.mean_grid_w)
-        parts.append(f"{label}: {judged.reason.replace('+-', '±')}; exported "
+        parts.append(f"{label}: {reason}; exported "
                      f"{stats.exported_wh:.1f} Wh")
     mean = max(means, key=abs)
     return Outcome(worst(*verdicts), " | ".join(parts) + f" ({SIGN})", SRC_REGULATION_BILLED,

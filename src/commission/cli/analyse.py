@@ -1,10 +1,12 @@
 """commission analyse capture|heating|soak|regulation
 
-Each command reads one instrument file, runs the model from ``commission.physics`` over it
-and prints every figure with its unit and its source (or ``--json``, SI units). The exit code
-is 0 whenever the analysis ran, whatever the verdict, and 2 on bad input (one line on
-stderr naming the file and what is accepted). numpy, the physics and the readers are
-imported inside the commands so that ``commission --help`` stays fast.
+Each command parses its options, calls the file kind's analysis in
+``commission.analyses`` (the same function, with the same defaults, that the checklist's
+checks and the record's charts call) and renders the result: every figure with its unit and
+source, the findings and the verdict (or ``--json``, SI units). The exit code is 0 whenever
+the analysis ran, whatever the verdict, and 2 on bad input (one line on stderr naming the
+file and what is accepted). numpy, the analyses and the readers are imported inside the
+commands so that ``commission --help`` stays fast.
 """
 
 import math
@@ -15,7 +17,7 @@ from typing import Annotated, Any
 
 import typer
 
-from .common import JsonOpt, emit_json, friendly
+from .common import JsonOpt, RegisterOpt, emit_json, friendly
 
 WIDTH = 80
 SIGN_CONVENTION = (
@@ -43,10 +45,6 @@ CAPTURE_COLUMNS = "voltage_v=U1,current_a=I1,time_s=t"
 TEMP_COLUMNS = "temp_c=T1,time_s=t"
 GRID_COLUMNS = "grid_w=P_grid,time_s=t"
 
-# Heating verdict defaults live with the check (checks/heating.py), shared by both.
-HEATING_BAND = (0.85, 1.10)  # common practice (same band as the checklist's heating check)
-HEATING_FILL_TEMP_C = 15.0  # common practice: cold mains water (from memory)
-
 app = typer.Typer(
     help="Check measured files against the physics: waveform captures, heating, heatsink "
     "soak, regulation. Figures come with units and sources; --json gives SI units. "
@@ -65,11 +63,14 @@ _READER_MAPPING_HINT = "map other names with a column mapping, e.g. voltage_v=U1
 def _bad_input(source: str, columns_example: str):
     """Turn the readers' CaptureError and the physics' ValueError into one-line UserErrors;
     the readers' generic hint on column mappings becomes this command's option."""
+    from ..analyses import SettingsError
     from ..captures import CaptureError
     from ..errors import UserError
 
     try:
         yield
+    except SettingsError as exc:
+        raise UserError(_one_line(str(exc))) from None
     except CaptureError as exc:
         text = str(exc).replace(_READER_MAPPING_HINT,
                                 f"map other names with --columns, e.g. {columns_example}")
@@ -186,23 +187,60 @@ def _print(lines: list[str]) -> None:
     typer.echo("\n".join(lines))
 
 
+# -- reading options, shared -------------------------------------------------------------
+
+TimeFormatOpt = Annotated[str | None, typer.Option(
+    "--time-format", metavar="FORMAT", show_default=False,
+    help="Form of timestamps that are not ISO 8601, in strptime codes, e.g. "
+    "'%d/%m/%Y %H:%M:%S'. Dates whose day and month cannot be told apart need it.")]
+TzOpt = Annotated[str | None, typer.Option(
+    "--tz", metavar="ZONE", show_default=False,
+    help="Time zone of naive local timestamps, e.g. Europe/London; corrects a clock change "
+    "inside the log.")]
+InstrumentOpt = Annotated[str | None, typer.Option(
+    "--instrument", metavar="SERIAL", show_default=False,
+    help="Read the file with this instrument's saved export profile (see 'commission "
+    "instruments profile'); options given here override it.")]
+
+
+def _read_settings(*, columns_text, example, instrument, register, time_format=None, tz=None,
+                   **extra):
+    """ReadSettings from the instrument's profile with the command's options on top."""
+    from ..analyses import ReadSettings
+
+    given = ReadSettings(columns=_mapping(columns_text, example), time_format=time_format,
+                         tz=tz, **{k: v for k, v in extra.items() if v is not None})
+    if instrument is None:
+        return given
+    from .common import open_register
+
+    with open_register(register, create=False) as reg:
+        profile = reg.export_profile(instrument)
+    return profile.merged(given)
+
+
+def _findings_lines(a) -> list[str]:
+    lines: list[str] = []
+    for f in a.findings:
+        mark = "" if f.affects_verdict else " (noted)"
+        lines += _para(f"finding{mark}: {f.text}", "")
+    for note in a.notes:
+        lines += _para(f"file notes: {note}")
+    return lines
+
+
+def _warn_findings(a) -> None:
+    for f in a.findings:
+        _warn(f"{a.file}: {f.text}")
+
+
 # -- capture -------------------------------------------------------------------------------
 
-def _looks_like_wav(path: str) -> bool:
-    if path.lower().endswith((".wav", ".wave")):
-        return True
-    try:
-        with open(path, "rb") as fh:
-            return fh.read(4) == b"RIFF"
-    except OSError:
-        return False  # the CSV reader gives the message
-
-
-def _channels(text: str | None) -> tuple[int, int]:
+def _channels(text: str | None) -> tuple[int, int] | None:
     from ..errors import UserError
 
     if text is None:
-        return 1, 2
+        return None
     parts = [p.strip() for p in text.split(",")]
     try:
         v, i = (int(p) for p in parts)
@@ -215,14 +253,20 @@ def _channels(text: str | None) -> tuple[int, int]:
     return v, i
 
 
+STATES_HELP = ("off-load (diverter off, known load, PV at zero), off-export (diverter off, PV "
+               "exporting), full (full output, PV at zero), part (forced part output, PV at "
+               "zero), regulating")
+
 CAPTURE_HELP = (
     "Analyse a voltage and current capture: RMS, power, power factors, THD, harmonics "
     "against IEC 61000-3-2 Class A, direction of power flow and the clamp orientation."
     "\n\n"
     "Copes with 50 and 60 Hz, frequency off nominal or drifting, sampling not locked to the "
     "mains, DC offset, and a capture that starts and ends mid-cycle; at least two whole "
-    "cycles are needed. The clamp verdict is only meaningful with a mostly resistive load "
-    "and the diverter off or at full output."
+    "cycles are needed. The clamp is judged from the state the capture was taken in "
+    f"(--state: {STATES_HELP}): first the sign of P against its cycle-to-cycle "
+    "uncertainty, then the angle of the current against the angle expected from the firing "
+    "angle seen in the current. A capture taken while regulating is review."
     "\n\n"
     "Three-phase CSV (voltage_l1_v, optionally voltage_l2_v and voltage_l3_v; current_1_a "
     "to current_3_a, clamp k meant for Lk; optionally current_n_a): per-phase figures, phase "
@@ -237,34 +281,40 @@ CAPTURE_HELP = (
 def capture(
     file: Annotated[str, typer.Argument(
         metavar="FILE", show_default=False,
-        help="CSV (header; time_s or --rate; voltage_v, current_a) or two-channel PCM WAV "
-        "from a data logger or isolated measurement front end.")],
+        help="CSV (header; time or --rate; voltage and current, units in the header read) or "
+        "two-channel PCM WAV from a data logger or isolated measurement front end.")],
+    state: Annotated[str | None, typer.Option(
+        "--state", metavar="STATE", show_default=False,
+        help=f"State the capture was taken in: {STATES_HELP}.")] = None,
     expect: Annotated[str | None, typer.Option(
         "--expect", metavar="import|export", show_default=False,
-        help="Direction of power flow at the moment of the capture; judges the clamp.")] = None,
+        help="Direction of power flow at the moment of the capture, when no --state is "
+        "given.")] = None,
     rate: Annotated[str | None, typer.Option(
         "--rate", metavar="HZ", show_default=False,
-        help="CSV: sample rate, when there is no time_s column.")] = None,
+        help="CSV: sample rate, when there is no time column.")] = None,
     columns: Annotated[str | None, typer.Option(
         "--columns", metavar="MAP", show_default=False,
         help="CSV: map other header names, e.g. voltage_v=U1,current_a=I1,time_s=t.")] = None,
     v_scale: Annotated[str | None, typer.Option(
         "--v-scale", metavar="X", show_default=False,
         help="CSV: volts per raw unit, value = (raw - offset) x scale (default 1). "
-        "WAV: volts at full scale (required).")] = None,
+        "WAV: volts at full scale (required, or in the instrument's profile).")] = None,
     v_offset: Annotated[str | None, typer.Option(
         "--v-offset", metavar="RAW", show_default=False,
         help="CSV: raw reading at zero volts (default 0).")] = None,
     i_scale: Annotated[str | None, typer.Option(
         "--i-scale", metavar="X", show_default=False,
         help="CSV: amperes per raw unit (default 1). WAV: amperes at full scale "
-        "(required).")] = None,
+        "(required, or in the instrument's profile).")] = None,
     i_offset: Annotated[str | None, typer.Option(
         "--i-offset", metavar="RAW", show_default=False,
         help="CSV: raw reading at zero amperes (default 0).")] = None,
     channels: Annotated[str | None, typer.Option(
         "--channels", metavar="V,I", show_default=False,
         help="WAV: channel numbers of voltage and current, from 1 (default 1,2).")] = None,
+    instrument: InstrumentOpt = None,
+    register: RegisterOpt = None,
     windows: Annotated[bool, typer.Option(
         "--windows", help="Also give V, I and P of every ~200 ms window "
         "(10 cycles at 50 Hz, 12 at 60 Hz).")] = False,
@@ -281,9 +331,19 @@ def capture(
     if expect is not None and expect.strip().lower() not in ("import", "export"):
         raise UserError(f"--expect: {expect!r} is not accepted; give import or export")
     expected = None if expect is None else expect.strip().lower()
+    from ..analyses import CaptureSettings, analyse_capture
+    from ..analyses.capture import canonical_state, looks_like_wav
+
+    with _bad_input(file, CAPTURE_COLUMNS):
+        try:
+            state_name = canonical_state(state)
+        except ValueError as exc:
+            raise UserError(f"--state: {exc}") from None
+        settings = CaptureSettings(state=state_name, expect=expected)
+        settings.direction()
+    wav = looks_like_wav(file)
     if load is not None and load.strip().lower() not in analyse_3ph.LOAD_WORDS:
         raise UserError(f"--load: {load!r} is not accepted; give all, one or unknown")
-    wav = _looks_like_wav(file)
     if not wav and analyse_3ph.looks_three_phase(file):
         for option, given in (("--v-scale", v_scale), ("--v-offset", v_offset),
                               ("--i-scale", i_scale), ("--i-offset", i_offset),
@@ -309,136 +369,53 @@ def capture(
                 raise UserError(f"{option}: applies to CSV captures only; {file} is a WAV "
                                 "file, which carries its own sample rate and channel order "
                                 "(choose channels with --channels V,I)")
-        if v_scale is None or i_scale is None:
-            raise UserError(f"{file}: WAV samples are fractions of full scale; give --v-scale "
-                            "(volts at full scale) and --i-scale (amperes at full scale) of "
-                            "the measurement front end")
-        result, notes = _analyse_wav(
-            file, _number(v_scale, "--v-scale", "the volts at full scale, e.g. 500"),
-            _number(i_scale, "--i-scale", "the amperes at full scale, e.g. 50"),
-            _channels(channels))
-        notes = (*notes, AUDIO_INPUT_WARNING)
+    elif channels is not None:
+        raise UserError("--channels: applies to WAV captures only; for a CSV map the "
+                        "columns with --columns voltage_v=U1,current_a=I1")
+    hint = "a number, e.g. 0.5"
+    if wav:
+        vs = _number(v_scale, "--v-scale", "the volts at full scale, e.g. 500")
+        is_ = _number(i_scale, "--i-scale", "the amperes at full scale, e.g. 50")
     else:
-        if channels is not None:
-            raise UserError("--channels: applies to WAV captures only; for a CSV map the "
-                            "columns with --columns voltage_v=U1,current_a=I1")
-        hint = "a number, e.g. 0.5"
-        result, notes = _analyse_csv(
-            file,
-            rate=_number(rate, "--rate", "the sample rate in hertz, e.g. 10000",
-                         positive=True),
-            columns=_mapping(columns, CAPTURE_COLUMNS),
-            v_scale=_number(v_scale, "--v-scale", hint) if v_scale is not None else 1.0,
-            v_offset=_number(v_offset, "--v-offset", hint) if v_offset is not None else 0.0,
-            i_scale=_number(i_scale, "--i-scale", hint) if i_scale is not None else 1.0,
-            i_offset=_number(i_offset, "--i-offset", hint) if i_offset is not None else 0.0,
-        )
-    for note in notes:
-        _warn(note)
-    data = _capture_json(result, expected, windows)
-    if as_json:
-        emit_json(data)
-    else:
-        _print(_capture_text(file, result, data, windows))
-
-
-def _analyse_csv(file, *, rate, columns, v_scale, v_offset, i_scale, i_offset):
-    from ..captures import read_capture_csv
-    from ..errors import UserError
-    from ..physics.waveform import CaptureAccumulator
-
-    if v_scale == 0 or i_scale == 0:
+        vs = _number(v_scale, "--v-scale", hint)
+        is_ = _number(i_scale, "--i-scale", hint)
+    if vs == 0 or is_ == 0:
         raise UserError("--v-scale and --i-scale must not be zero: every reading would "
                         "become zero")
+    read = _read_settings(
+        columns_text=columns, example=CAPTURE_COLUMNS, instrument=instrument,
+        register=register,
+        rate_hz=_number(rate, "--rate", "the sample rate in hertz, e.g. 10000", positive=True),
+        v_scale=vs, i_scale=is_,
+        v_offset=_number(v_offset, "--v-offset", hint),
+        i_offset=_number(i_offset, "--i-offset", hint),
+        channels=_channels(channels))
+    if wav and not (read.v_scale and read.i_scale):
+        raise UserError(f"{file}: WAV samples are fractions of full scale; give --v-scale "
+                        "(volts at full scale) and --i-scale (amperes at full scale) of "
+                        "the measurement front end, or --instrument with a saved profile")
     progress = _Progress(file)
     try:
         with _bad_input(file, CAPTURE_COLUMNS):
             progress.say("reading")
-            cap = read_capture_csv(file, sample_rate_hz=rate, columns=columns,
-                                   voltage_scale=v_scale, voltage_offset=v_offset,
-                                   current_scale=i_scale, current_offset=i_offset)
-            progress.say("analysing")
-            acc = CaptureAccumulator(cap.sample_rate_hz, start_time_s=cap.start_time_s)
-            acc.add(cap.voltage_v, cap.current_a)
-            result = acc.result()
+            a = analyse_capture(file, settings, read, progress=progress.fraction)
     finally:
         progress.close()
-    return result, (*cap.warnings, *_irregular_note(file, result))
-
-
-def _analyse_wav(file, v_full, i_full, chans):
-    from ..captures import open_capture_wav
-    from ..errors import UserError
-    from ..physics.waveform import CaptureAccumulator
-
-    if v_full == 0 or i_full == 0:
-        raise UserError("--v-scale and --i-scale must not be zero (volts and amperes at full "
-                        "scale)")
-    progress = _Progress(file)
-    try:
-        with _bad_input(file, CAPTURE_COLUMNS):
-            stream = open_capture_wav(file, voltage_full_scale_v=v_full,
-                                      current_full_scale_a=i_full, voltage_channel=chans[0],
-                                      current_channel=chans[1])
-            acc = CaptureAccumulator(stream.sample_rate_hz)
-            done = 0
-            for v, i in stream:  # chunked: an hour-long file stays in bounded memory
-                acc.add(v, i)
-                done += v.size
-                progress.fraction(done / stream.frames)
-            progress.say("analysing")
-            result = acc.result()
-    finally:
-        progress.close()
-    return result, (*stream.warnings, *_irregular_note(file, result))
-
-
-def _irregular_note(file, result):
-    if not result.irregular_cycles:
-        return ()
-    return (f"{file}: {result.irregular_cycles} irregular mains cycle(s) (glitches or dropouts "
-            "in the voltage) and the windows around them were left out",)
-
-
-def _capture_json(r, expect, windows: bool) -> dict[str, Any]:
-    from ..physics.harmonic_limits import class_a_limits
-    from ..physics.waveform import classify_clamp
-
-    clamp = classify_clamp(r.phase_deg, expect)
-    limits = class_a_limits()
-    harmonics = []
-    for order, i_rms in zip(r.harmonic_orders, r.i_harmonics_a, strict=True):
-        limit = limits[order]
-        harmonics.append({
-            "order": order,
-            "i_rms": i_rms,
-            "class_a_limit_a": limit,
-            "within": None if i_rms is None else bool(i_rms <= limit),
-        })
-    data: dict[str, Any] = {
-        "frequency_hz": r.frequency_hz,
-        "cycles": r.cycles,
-        "v_rms": r.v_rms,
-        "i_rms": r.i_rms,
-        "p_w": r.p_w,
-        "s_va": r.s_va,
-        "power_factor": r.power_factor,
-        "displacement_pf": _finite(r.displacement_pf),
-        "phase_deg": _finite(r.phase_deg),
-        "thd_v_pct": _finite(r.thd_v_pct),
-        "thd_i_pct": _finite(r.thd_i_pct),
-        "direction": r.direction,
-        "clamp": {"verdict": clamp.verdict, "reason": clamp.reason},
-        "harmonics": harmonics,
-        "class_a_within": all(h["within"] for h in harmonics if h["within"] is not None),
-    }
+    _warn_findings(a)
+    if wav:
+        _warn(AUDIO_INPUT_WARNING)
+    data = a.as_json()
+    r = a.raw
     if windows:
         data["windows"] = [
             {"start_s": s, "v_rms": v, "i_rms": i, "p_w": p}
             for s, v, i, p in zip(r.window_start_s, r.window_v_rms, r.window_i_rms,
                                   r.window_p_w, strict=True)
         ]
-    return data
+    if as_json:
+        emit_json(data)
+    else:
+        _print(_capture_text(file, a, data, windows))
 
 
 def _fmt(x: float | None, spec: str, unit: str) -> str:
@@ -450,30 +427,39 @@ def _fmt(x: float | None, spec: str, unit: str) -> str:
     return f"{text} {unit}".rstrip()
 
 
-def _capture_text(file: str, r, data: dict[str, Any], windows: bool) -> list[str]:
+def _capture_text(file: str, a, data: dict[str, Any], windows: bool) -> list[str]:
+    r = a.raw
     lines = _para(f"{file}: {r.cycles} whole mains cycles in {r.windows} window(s) of "
                   f"{r.window_cycles} cycles, sampled at {r.sample_rate_hz:g} Hz")
     thd_src = f"{SRC_4_7}, h 2-{r.thd_max_order}"
-    lines += _row("frequency", _fmt(r.frequency_hz, ".3f", "Hz"),
-                  SRC_4_7)
+    lines += _row("frequency", _fmt(r.frequency_hz, ".3f", "Hz"), SRC_4_7)
     lines += _row("voltage", _fmt(r.v_rms, ".1f", "V rms"), SRC_1459)
     lines += _row("current", _fmt(r.i_rms, ".3f", "A rms"), SRC_1459)
     lines += _row("active power P", _fmt(r.p_w, "+.1f", "W"), SRC_1459 + ", sign below")
+    lines += _row("uncertainty of P", "±" + _fmt(data["p_uncertainty_w"], ".1f", "W"),
+                  f"k = 2, spread of {data['p_spread_count']} {data['p_spread_of']} (GUM)")
     lines += _row("apparent power S", _fmt(r.s_va, ".1f", "VA"), SRC_1459)
     lines += _row("power factor P/S", _fmt(r.power_factor, ".3f", ""), SRC_1459)
+    lines += _row("PF without DC", _fmt(data["power_factor_dc_removed"], ".3f", ""),
+                  SRC_1459 + ", DC offsets removed")
     lines += _row("displacement PF", _fmt(data["displacement_pf"], ".3f", ""),
                   SRC_1459 + ", fundamentals")
     lines += _row("phase of I1 to V1", _fmt(data["phase_deg"], "+.1f", "deg"),
                   "+ = current leads; " + SRC_1459)
+    lines += _row("firing angle", _fmt(data["firing_angle_deg"], ".0f", "deg"),
+                  "read from the current itself")
+    lines += _row("expected phase", _fmt(data["expected_phase_deg"], "+.1f", "deg"),
+                  "phi1(alpha), Rashid (from memory)")
     lines += _row("THD voltage", _fmt(data["thd_v_pct"], ".2f", "%"), thd_src)
     lines += _row("THD current", _fmt(data["thd_i_pct"], ".2f", "%"), thd_src)
-    lines += _row("direction", r.direction,
-                  "sign of P; threshold our default")
+    lines += _row("direction", r.direction, "sign of P; threshold our default")
     lines += _para(SIGN_CONVENTION)
     lines.append("")
-    lines += _para(f"clamp: {data['clamp']['verdict']}: {data['clamp']['reason']} "
-                   "(phasors 120 deg apart, any power-systems textbook; 45 deg band our "
-                   "default)")
+    state = data["state"] or (f"expecting {data['expected_direction']}"
+                              if data["expected_direction"] else "no state given")
+    lines += _para(f"clamp ({state}): {a.verdict}: {a.reason} (phasors 120 deg apart, any "
+                   "power-systems textbook; 45 deg band our default)")
+    lines += _findings_lines(a)
     lines.append("")
     lines += _para("Harmonic currents, RMS average over the windows, " + SRC_4_7 + "; "
                    "limits " + SRC_CLASS_A + "; a type-test limit for equipment up to 16 A, "
@@ -505,11 +491,11 @@ def _capture_text(file: str, r, data: dict[str, Any], windows: bool) -> list[str
 
 # -- heating -------------------------------------------------------------------------------
 
-def _band(text: str | None) -> tuple[float, float]:
+def _band(text: str | None) -> tuple[float, float] | None:
     from ..errors import UserError
 
     if text is None:
-        return HEATING_BAND
+        return None
     parts = text.split(",")
     try:
         lo, hi = (float(p.strip()) for p in parts)
@@ -522,13 +508,31 @@ def _band(text: str | None) -> tuple[float, float]:
     return lo, hi
 
 
+def _fraction(text: str | None) -> float | None:
+    from ..errors import UserError
+
+    if text is None:
+        return None
+    t = text.strip()
+    pct = t.endswith("%")
+    value = _number(t.rstrip("%").strip(), "--fraction-above", "a fraction such as 0.8 or 80 %")
+    assert value is not None
+    if pct or value > 1.0:
+        value /= 100.0
+    if not 0.0 < value <= 1.0:
+        raise UserError(f"--fraction-above: {text!r} is not between 0 and 1 (or 0 and 100 %); "
+                        "give the share of the cylinder above the element's lowest point")
+    return value
+
+
 HEATING_HELP = (
     "Does the water heat as fast as the element's power predicts?\n\n"
-    "Fits the heating rate over the steady part of the log (warm-up and a final plateau "
-    "left out), compares it with P/(m cp) (mass at filling, cp at the mean temperature, "
-    "IAPWS-95; lumped energy balance, Incropera) and infers the power delivered to the "
-    "water. pass inside the band; fail below it; review above it, or when the log is too "
-    "short or noisy to say."
+    "Detects thermostat cycling and fits only the first rising run (warm-up and a plateau "
+    "left out), compares it with P/(m cp) for the water the element serves (the share of "
+    "the cylinder above it; mass at filling, cp at the mean temperature, IAPWS-95; lumped "
+    "energy balance, Incropera) and infers the power delivered to the water. pass inside "
+    "the band; fail below it; review above it, or when the log is too short or noisy to "
+    "say. Units in the header (°F, minutes, ms) are converted."
 )
 
 
@@ -537,14 +541,23 @@ HEATING_HELP = (
 def heating(
     log: Annotated[str, typer.Argument(
         metavar="LOG", show_default=False,
-        help="CSV with time_s (seconds) or timestamp (ISO 8601), and temp_c.")],
+        help="CSV with a time column (seconds, or with its unit) or timestamps, and the "
+        "water temperature (temp_c, or with its unit).")],
     volume_l: Annotated[str | None, typer.Option(
         "--volume-l", metavar="LITRES", show_default=False,
-        help="Water volume the element heats [L] (required).")] = None,
+        help="Cylinder volume [L] (required).")] = None,
     power_w: Annotated[str | None, typer.Option(
         "--power-w", metavar="WATTS", show_default=False,
         help="Element power [W] (required): from its cold resistance at the measured "
         "voltage, U^2/R, else the nameplate.")] = None,
+    element_position: Annotated[str | None, typer.Option(
+        "--element-position", metavar="POSITION", show_default=False,
+        help="Where the element sits (top entry, side entry low, side entry high): sets the "
+        "volume it serves by the checklist's default fractions (common practice).")] = None,
+    fraction_above: Annotated[str | None, typer.Option(
+        "--fraction-above", metavar="F", show_default=False,
+        help="Share of the cylinder above the element's lowest point, e.g. 0.8 or 80 % "
+        "(wins over --element-position).")] = None,
     band: Annotated[str | None, typer.Option(
         "--band", metavar="LOW,HIGH", show_default=False,
         help="Accepted ratio of measured to expected rate (default 0.85,1.10, common "
@@ -556,78 +569,62 @@ def heating(
     columns: Annotated[str | None, typer.Option(
         "--columns", metavar="MAP", show_default=False,
         help="Map other header names, e.g. temp_c=T1,time_s=t.")] = None,
+    time_format: TimeFormatOpt = None,
+    tz: TzOpt = None,
+    instrument: InstrumentOpt = None,
+    register: RegisterOpt = None,
     as_json: JsonOpt = False,
 ) -> None:
     """Command body; the help text is HEATING_HELP."""
+    from ..analyses import HeatingSettings, analyse_heating
+
     volume = _required(_number(volume_l, "--volume-l", "the water volume in litres, e.g. "
                                "200", positive=True),
-                       "--volume-l", "give the water volume the element heats, in litres")
+                       "--volume-l", "give the cylinder volume, in litres")
     power = _required(_number(power_w, "--power-w", "the element power in watts, e.g. 2400",
                               positive=True),
                       "--power-w", "give the element power in watts (U^2/R, else nameplate)")
-    lo, hi = _band(band)
     fill = _number(fill_temp_c, "--fill-temp-c", "the filling temperature in degC, e.g. 15",
                    minimum=0.0, maximum=100.0)
-    fill = HEATING_FILL_TEMP_C if fill is None else fill
-    mapping = _mapping(columns, TEMP_COLUMNS)
-
-    from ..captures import read_heating_log
-    from ..checks.heating import assess_heating_log
-
+    given = {"power_w": power, "volume_l": volume, "element_position": element_position,
+             "fraction_above": _fraction(fraction_above), "band": _band(band),
+             "fill_temp_c": fill}
+    settings = HeatingSettings(**{k: v for k, v in given.items() if v is not None})
+    read = _read_settings(columns_text=columns, example=TEMP_COLUMNS, instrument=instrument,
+                          register=register, time_format=time_format, tz=tz)
     with _bad_input(log, TEMP_COLUMNS):
-        data_log = read_heating_log(log, columns=mapping)
-        judged = assess_heating_log(data_log.time_s, data_log.temp_c, power_w=power,
-                                    volume_l=volume, fill_temp_c=fill, band=(lo, hi))
-    fit, expected, ratio = judged.fit, judged.expected_k_per_h, judged.ratio
-    verdict, reason = judged.verdict, judged.reason
-    mass, delivered, cp = judged.mass_kg, judged.delivered_w, judged.cp_j_per_kg_k
-    span_s = fit.fit_end_s - fit.fit_start_s
-    data = {
-        "rate_k_per_h": fit.rate_k_per_h,
-        "expected_rate_k_per_h": expected,
-        "delivered_power_w": delivered,
-        "ratio": ratio,
-        "verdict": verdict,
-        "reason": reason,
-        "power_w": power,
-        "volume_l": volume,
-        "fill_temp_c": fill,
-        "mass_kg": mass,
-        "cp_j_per_kg_k": cp,
-        "band": [lo, hi],
-        "start_temp_c": fit.start_temp_c,
-        "end_temp_c": fit.end_temp_c,
-        "mean_temp_c": fit.mean_temp_c,
-        "minutes": span_s / 60.0,
-        "fit_start_s": fit.fit_start_s,
-        "fit_end_s": fit.fit_end_s,
-        "points": fit.points,
-        "rate_stderr_k_per_h": fit.rate_stderr_k_per_h,
-        "residual_rms_k": fit.residual_rms_k,
-        "warmup_dropped_s": fit.warmup_dropped_s,
-        "plateau_from_s": fit.plateau_from_s,
-    }
+        a = analyse_heating(log, settings, read)
+    _warn_findings(a)
+    data = a.as_json()
     if as_json:
         emit_json(data)
         return
-    lines = _para(f"{log}: fitted {fit.fit_start_s / 60:.1f} to {fit.fit_end_s / 60:.1f} min "
-                  f"({fit.points} readings; warm-up of {fit.warmup_dropped_s / 60:.1f} min "
-                  "left out" + (f", plateau from {fit.plateau_from_s / 60:.1f} min left out)"
-                                if fit.plateau_from_s is not None else ")"))
-    lines += _row("start temperature", _fmt(fit.start_temp_c, ".1f", "°C"), "fitted line")
-    lines += _row("end temperature", _fmt(fit.end_temp_c, ".1f", "°C"), "fitted line")
-    lines += _row("time", _fmt(span_s / 60.0, ".1f", "min"), "fitted span")
-    lines += _row("measured rate", _fmt(fit.rate_k_per_h, ".2f", "K/h"),
-                  f"least squares, ±{fit.rate_stderr_k_per_h:.2f} K/h (1 s.e.)")
-    lines += _row("water mass", _fmt(mass, ".1f", "kg"),
-                  f"{volume:g} L x density at {fill:g} °C, {SRC_IAPWS}")
-    lines += _row("heat capacity cp", _fmt(cp, ".0f", "J/(kg K)"),
-                  f"at mean {fit.mean_temp_c:.1f} °C, {SRC_IAPWS}")
-    lines += _row("expected rate", _fmt(expected, ".2f", "K/h"),
+    fig = a.figures
+    lo, hi = fig["band"]
+    plateau = fig["plateau_from_s"]
+    lines = _para(f"{log}: fitted {fig['fit_start_s'] / 60:.1f} to {fig['fit_end_s'] / 60:.1f} "
+                  f"min ({fig['points']} readings; warm-up of "
+                  f"{fig['warmup_dropped_s'] / 60:.1f} min left out"
+                  + (f", plateau from {plateau / 60:.1f} min left out)"
+                     if plateau is not None else ")"))
+    lines += _row("start temperature", _fmt(fig["start_temp_c"], ".1f", "°C"), "fitted line")
+    lines += _row("end temperature", _fmt(fig["end_temp_c"], ".1f", "°C"), "fitted line")
+    lines += _row("time", _fmt(fig["minutes"], ".1f", "min"), "fitted span")
+    lines += _row("measured rate", _fmt(fig["rate_k_per_h"], ".2f", "K/h"),
+                  f"least squares, ±{fig['rate_stderr_k_per_h']:.2f} K/h (1 s.e.)")
+    lines += _row("volume served", _fmt(fig["served_volume_l"], ".0f", "L"),
+                  fig["served_volume_basis"].split("(", 1)[-1].rstrip(")"))
+    lines += _row("water mass", _fmt(fig["mass_kg"], ".1f", "kg"),
+                  f"volume x density at {fig['fill_temp_c']:g} °C, {SRC_IAPWS}")
+    lines += _row("heat capacity cp", _fmt(fig["cp_j_per_kg_k"], ".0f", "J/(kg K)"),
+                  f"at mean {fig['mean_temp_c']:.1f} °C, {SRC_IAPWS}")
+    lines += _row("expected rate", _fmt(fig["expected_rate_k_per_h"], ".2f", "K/h"),
                   f"{power:g} W / (m cp), Incropera; {SRC_IAPWS}")
-    lines += _row("delivered power", _fmt(delivered, ".0f", "W"), "rate x m x cp, Incropera")
-    lines += _row("ratio", _fmt(ratio, ".3f", ""), f"band {lo:g}-{hi:g}, common practice")
-    lines += _verdict_lines(verdict, reason)
+    lines += _row("delivered power", _fmt(fig["delivered_power_w"], ".0f", "W"),
+                  "rate x m x cp, Incropera")
+    lines += _row("ratio", _fmt(fig["ratio"], ".3f", ""), f"band {lo:g}-{hi:g}, common practice")
+    lines += _findings_lines(a)
+    lines += _verdict_lines(a.verdict, a.reason)
     _print(lines)
 
 
@@ -635,11 +632,15 @@ def heating(
 
 SOAK_HELP = (
     "Will the heatsink stay below its limit once it has fully warmed up?\n\n"
-    "Fits T(t) = T_inf - (T_inf - T0) exp(-t/tau) (lumped first-order model, Incropera) "
-    "with a 95 % interval, scales the steady rise to the worst ambient and supply, and "
-    "fails a soak that will overheat later even when every logged value is still below "
-    "the limit. Optional junction estimate from datasheet values (give all five junction "
-    "options together)."
+    "Fits one time constant, T(t) = T_inf - (T_inf - T0) exp(-t/tau) (lumped first-order "
+    "model, Incropera), and two (heatsink and enclosure air), chooses by the structure of "
+    "the residuals and BIC, and gives a 95 % interval widened for correlated residuals and "
+    "the model uncertainty. Scales the steady rise to the worst ambient and supply (rise "
+    "factor, default 1.2 for +10 % voltage), fails a soak that will overheat later even "
+    "when every logged value is still below the limit, and asks for a longer log (saying "
+    "how much) until it covers three of the slowest time constant. An ambient column in "
+    "the log is used. Optional junction estimate from datasheet values (give all five "
+    "junction options together)."
 )
 
 
@@ -648,11 +649,13 @@ SOAK_HELP = (
 def soak(
     log: Annotated[str, typer.Argument(
         metavar="LOG", show_default=False,
-        help="CSV with time_s or timestamp, and temp_c (heatsink), logged at full output "
-        "with the enclosure closed.")],
+        help="CSV with a time column or timestamps, the heatsink temperature (temp_c) and "
+        "optionally the ambient (ambient_c), logged at full output with the enclosure "
+        "closed.")],
     ambient_c: Annotated[str | None, typer.Option(
         "--ambient-c", metavar="DEGC", show_default=False,
-        help="Ambient temperature during the soak [degC] (required).")] = None,
+        help="Ambient temperature during the soak [degC] (required unless the log has an "
+        "ambient column).")] = None,
     limit_c: Annotated[str | None, typer.Option(
         "--limit-c", metavar="DEGC", show_default=False,
         help="Highest permissible heatsink temperature [degC] (required; from the "
@@ -663,8 +666,8 @@ def soak(
         "ambient).")] = None,
     rise_factor: Annotated[str | None, typer.Option(
         "--rise-factor", metavar="F", show_default=False,
-        help="Factor on the temperature rise for the worst supply (default 1.0; about "
-        "1.15-1.20 for +10 % voltage, our estimate from the loss model).")] = None,
+        help="Factor on the temperature rise for the worst supply (default 1.2: +15-20 % "
+        "at +10 % voltage, CHECKS.md; the checklist's parameter).")] = None,
     load_current_a: Annotated[str | None, typer.Option(
         "--load-current-a", metavar="A", show_default=False,
         help="Junction estimate: RMS load current at full output [A].")] = None,
@@ -682,21 +685,24 @@ def soak(
         help="Junction estimate: Rth case-heatsink of the interface [K/W].")] = None,
     columns: Annotated[str | None, typer.Option(
         "--columns", metavar="MAP", show_default=False,
-        help="Map other header names, e.g. temp_c=T1,time_s=t.")] = None,
+        help="Map other header names, e.g. temp_c=T1,ambient_c=T2,time_s=t.")] = None,
+    time_format: TimeFormatOpt = None,
+    tz: TzOpt = None,
+    instrument: InstrumentOpt = None,
+    register: RegisterOpt = None,
     as_json: JsonOpt = False,
 ) -> None:
     """Command body; the help text is SOAK_HELP."""
+    from ..analyses import SoakSettings, analyse_soak
     from ..errors import UserError
 
     hint = "a temperature in degC, e.g. 25"
-    ambient = _required(_number(ambient_c, "--ambient-c", hint), "--ambient-c",
-                        "give the ambient temperature during the soak, in degC")
+    ambient = _number(ambient_c, "--ambient-c", hint)
     limit = _required(_number(limit_c, "--limit-c", hint), "--limit-c",
                       "give the highest permissible heatsink temperature, in degC")
     worst = _number(worst_ambient_c, "--worst-ambient-c", hint)
-    factor = _number(rise_factor, "--rise-factor", "a factor such as 1.0 or 1.15",
+    factor = _number(rise_factor, "--rise-factor", "a factor such as 1.0 or 1.2",
                      positive=True)
-    factor = 1.0 if factor is None else factor
     junction_given = {"--load-current-a": load_current_a, "--vt0-v": vt0_v,
                       "--rt-ohm": rt_ohm, "--rth-jc-k-per-w": rth_jc,
                       "--rth-cs-k-per-w": rth_cs}
@@ -708,81 +714,77 @@ def soak(
     junction_values = {k: _number(v, k, "a non-negative number from the datasheet",
                                   minimum=0.0, maximum=1e6)
                        for k, v in junction_given.items()} if chosen else None
-    mapping = _mapping(columns, TEMP_COLUMNS)
-
-    from ..captures import read_soak_log
-    from ..physics import thermal
-
+    read = _read_settings(columns_text=columns, example=TEMP_COLUMNS, instrument=instrument,
+                          register=register, time_format=time_format, tz=tz)
+    given = {"limit_c": limit, "ambient_c": ambient, "worst_ambient_c": worst,
+             "rise_factor": factor}
+    settings = SoakSettings(**{k: v for k, v in given.items() if v is not None})
     with _bad_input(log, TEMP_COLUMNS):
-        data_log = read_soak_log(log, columns=mapping)
-        fit = thermal.fit_first_order(data_log.time_s, data_log.temp_c)
-        prediction = thermal.predict_worst_case(fit, ambient, worst_ambient_c=worst,
-                                                rise_factor=factor)
-        judged = thermal.soak_verdict(fit, prediction, limit)
-    data: dict[str, Any] = {
-        "t_inf_c": fit.t_inf_c,
-        "t_inf_ci_c": [_finite(x) for x in fit.t_inf_ci_c],
-        "tau_s": fit.tau_s,
-        "predicted_max_c": prediction.predicted_max_c,
-        "predicted_max_ci_c": [_finite(x) for x in prediction.predicted_max_ci_c],
-        "fit_rmse_k": fit.rmse_k,
-        "verdict": judged.verdict,
-        "reason": judged.reason,
-        "t0_c": fit.t0_c,
-        "rise_k": prediction.rise_k,
-        "max_logged_c": fit.max_logged_c,
-        "limit_c": limit,
-        "ambient_c": ambient,
-        "worst_ambient_c": ambient if worst is None else worst,
-        "rise_factor": factor,
-        "points": fit.points,
-        "duration_s": fit.duration_s,
-        "time_constants_covered": fit.time_constants_covered,
-    }
+        try:
+            a = analyse_soak(log, settings, read)
+        except ValueError as exc:
+            if "no ambient column" in str(exc):
+                raise UserError(f"--ambient-c is required: {_one_line(str(exc))} "
+                                "(--ambient-c, in degC)") from None
+            raise
+    _warn_findings(a)
+    data = a.as_json()
+    fig = a.figures
     if junction_values is not None:
+        from ..physics import thermal
+
         current = junction_values["--load-current-a"]
         loss = thermal.conduction_loss_w(thermal.full_conduction_i_avg_a(current), current,
                                          junction_values["--vt0-v"],
                                          junction_values["--rt-ohm"])
         rth = (junction_values["--rth-jc-k-per-w"], junction_values["--rth-cs-k-per-w"])
         data["device_loss_w"] = loss
-        data["junction_c"] = thermal.junction_temperature_c(prediction.predicted_max_c, loss,
-                                                            *rth)
+        data["junction_c"] = thermal.junction_temperature_c(fig["predicted_max_c"], loss, *rth)
         data["junction_ci_c"] = [
             _finite(thermal.junction_temperature_c(x, loss, *rth))
-            for x in prediction.predicted_max_ci_c
+            for x in fig["predicted_max_ci_c"]
         ]
     if as_json:
         emit_json(data)
         return
-    lo, hi = fit.t_inf_ci_c
-    plo, phi = prediction.predicted_max_ci_c
-    lines = _para(f"{log}: {fit.points} readings over {fit.duration_s / 60:.1f} min, "
-                  f"{fit.time_constants_covered:.1f} time constants; fitted T(t) = T_inf - "
-                  "(T_inf - T0) exp(-t/tau) by least squares (Bates & Watts)")
-    lines += _row("start T0", _fmt(fit.t0_c, ".1f", "°C"), SRC_LUMPED)
-    lines += _row("steady state T_inf", _fmt(fit.t_inf_c, ".1f", "°C"), SRC_LUMPED)
-    lines += _row("95 % interval", f"{lo:.1f} to {hi:.1f} °C",
-                  "Student t, Abramowitz & Stegun 26.7")
-    lines += _row("time constant tau", _fmt(fit.tau_s, ".0f", "s"), SRC_LUMPED)
-    lines += _row("fit RMSE", _fmt(fit.rmse_k, ".2f", "K"),
-                  f"trusted up to {thermal.DEFAULT_MAX_RMSE_K:g} K, our default")
-    lines += _row("highest logged", _fmt(fit.max_logged_c, ".1f", "°C"), "the log")
-    lines += _row("worst ambient", _fmt(data["worst_ambient_c"], ".1f", "°C"),
+    lo, hi = fig["t_inf_ci_c"]
+    plo, phi = fig["predicted_max_ci_c"]
+    two = fig["model"] == "two time constants"
+    model_src = ("two time constants, Foster network; Incropera" if two else SRC_LUMPED)
+    lines = _para(f"{log}: {fig['points']} readings over {fig['duration_s'] / 60:.1f} min, "
+                  f"{fig['time_constants_covered']:.1f} of the slowest time constant; model: "
+                  f"{fig['model']} (residual autocorrelation r1 "
+                  f"{fig['residual_lag1_one_constant']:.2f} for one constant; BIC, Burnham & "
+                  "Anderson), least squares (Bates & Watts)")
+    lines += _row("start T0", _fmt(fig["t0_c"], ".1f", "°C"), model_src)
+    lines += _row("steady state T_inf", _fmt(fig["t_inf_c"], ".1f", "°C"), model_src)
+    lines += _row("95 % interval", f"{_fmt(lo, '.1f', '')} to {_fmt(hi, '.1f', '°C')}",
+                  "Student t, widened for model uncertainty")
+    if two:
+        lines += _row("fast constant", _fmt(fig["tau_fast_s"], ".0f", "s"), model_src)
+    lines += _row("time constant tau" if not two else "slow constant",
+                  _fmt(fig["tau_slow_s"], ".0f", "s"), model_src)
+    lines += _row("fit RMSE", _fmt(fig["fit_rmse_k"], ".2f", "K"),
+                  "trusted up to 1 K, our default")
+    lines += _row("highest logged", _fmt(fig["max_logged_c"], ".1f", "°C"), "the log")
+    lines += _row("ambient", _fmt(fig["ambient_c"], ".1f", "°C"), fig["ambient_from"])
+    lines += _row("worst ambient", _fmt(fig["worst_ambient_c"], ".1f", "°C"),
                   "given" if worst is not None else "soak ambient (none given)")
-    lines += _row("rise factor", _fmt(factor, ".2f", ""),
+    lines += _row("rise factor", _fmt(fig["rise_factor"], ".2f", ""),
                   ("given" if rise_factor is not None else "default")
-                  + "; 1.15-1.20 at +10 % V, estimate")
-    lines += _row("predicted maximum", _fmt(prediction.predicted_max_c, ".1f", "°C"),
+                  + "; 1.15-1.20 at +10 % V, CHECKS.md")
+    lines += _row("predicted maximum", _fmt(fig["predicted_max_c"], ".1f", "°C"),
                   "Tamb,worst + F(Tinf - Tamb), Incropera")
-    lines += _row("95 % interval", f"{plo:.1f} to {phi:.1f} °C", "as for T_inf")
+    lines += _row("95 % interval", f"{_fmt(plo, '.1f', '')} to {_fmt(phi, '.1f', '°C')}",
+                  "as for T_inf")
     lines += _row("limit", _fmt(limit, ".1f", "°C"), "given (--limit-c)")
     if "junction_c" in data:
         lines += _row("device loss", _fmt(data["device_loss_w"], ".1f", "W"),
                       "V_T0 I_avg + r_T I_rms^2, datasheet")
         lines += _row("junction estimate", _fmt(data["junction_c"], ".1f", "°C"),
                       "T_hs + P (Rth j-c + Rth c-s), datasheet")
-    lines += _verdict_lines(judged.verdict, judged.reason)
+    lines += _findings_lines(a)
+    lines += _verdict_lines(a.verdict, a.reason)
     _print(lines)
 
 
@@ -791,8 +793,9 @@ def soak(
 REGULATION_HELP = (
     "Does the diverter hold the grid reading in its dead band?\n\n"
     "Mean and 95th percentile of |grid|, energy still exported and imported, and the "
-    "settling time after the largest step. Default rule: pass when |mean| <= D and the "
-    "95th percentile of |grid| <= 3 D (common practice; the factor 3 is our default)."
+    "settling time into the dead band after the largest step. Default rule: pass when "
+    "|mean| <= D and the 95th percentile of |grid| <= 3 D (common practice; the factor 3 "
+    "is our default). Power in kW in the header is converted."
     "\n\n" + SIGN_CONVENTION
 )
 
@@ -802,8 +805,9 @@ REGULATION_HELP = (
 def regulation(
     log: Annotated[str, typer.Argument(
         metavar="LOG", show_default=False,
-        help="CSV with time_s or timestamp, grid_w (positive = import) and optionally "
-        "diverter_w, logged in automatic mode with surplus available.")],
+        help="CSV with a time column or timestamps, grid power (grid_w, positive = import, "
+        "or with its unit) and optionally diverter_w, logged in automatic mode with surplus "
+        "available.")],
     dead_band_w: Annotated[str | None, typer.Option(
         "--dead-band-w", metavar="W", show_default=False,
         help="Dead band D of the controller [W] (required; e.g. 50, common practice). "
@@ -815,69 +819,54 @@ def regulation(
     columns: Annotated[str | None, typer.Option(
         "--columns", metavar="MAP", show_default=False,
         help="Map other header names, e.g. grid_w=P_grid,time_s=t.")] = None,
+    time_format: TimeFormatOpt = None,
+    tz: TzOpt = None,
+    instrument: InstrumentOpt = None,
+    register: RegisterOpt = None,
     as_json: JsonOpt = False,
 ) -> None:
     """Command body; the help text is REGULATION_HELP."""
+    from ..analyses import RegulationSettings, analyse_regulation
+
     dead = _required(_number(dead_band_w, "--dead-band-w", "the dead band in watts, e.g. 50",
                              positive=True),
                      "--dead-band-w", "give the controller's dead band in watts, e.g. 50")
     hold = _number(hold_s, "--settle-hold-s", "a time in seconds, e.g. 10", minimum=0.0,
                    maximum=1e9)
-    mapping = _mapping(columns, GRID_COLUMNS)
-
-    from ..captures import read_regulation_log
-    from ..physics import regulation as reg
-
-    hold = reg.DEFAULT_SETTLING_HOLD_S if hold is None else hold
+    read = _read_settings(columns_text=columns, example=GRID_COLUMNS, instrument=instrument,
+                          register=register, time_format=time_format, tz=tz)
+    settings = RegulationSettings(dead_band_w=dead) if hold is None else \
+        RegulationSettings(dead_band_w=dead, hold_s=hold)
     with _bad_input(log, GRID_COLUMNS):
-        data_log = read_regulation_log(log, columns=mapping)
-        stats = reg.grid_statistics(data_log.time_s, data_log.grid_w,
-                                    diverter_w=data_log.diverter_w, settling_band_w=dead,
-                                    settling_hold_s=hold)
-        judged = reg.regulation_verdict(stats, dead)
-    data = {
-        "mean_grid_w": stats.mean_grid_w,
-        "p95_abs_grid_w": stats.p95_abs_grid_w,
-        "exported_wh": stats.exported_wh,
-        "imported_wh": stats.imported_wh,
-        "settling_s": stats.settling_s,
-        "verdict": judged.verdict,
-        "reason": judged.reason,
-        "dead_band_w": dead,
-        "duration_s": stats.duration_s,
-        "samples": stats.samples,
-        "largest_step_w": stats.largest_step_w,
-        "step_time_s": stats.step_time_s,
-        "settling_band_w": stats.settling_band_w,
-        "settling_hold_s": hold,
-        "mean_diverter_w": stats.mean_diverter_w,
-        "diverted_wh": stats.diverted_wh,
-    }
+        a = analyse_regulation(log, settings, read)
+    _warn_findings(a)
     if as_json:
-        emit_json(data)
+        emit_json(a.as_json())
         return
-    lines = _para(f"{log}: {stats.samples} readings over {stats.duration_s / 60:.1f} min")
-    lines += _row("mean grid power", _fmt(stats.mean_grid_w, "+.1f", "W"),
+    fig = a.figures
+    lines = _para(f"{log}: {fig['samples']} readings over {fig['duration_s'] / 60:.1f} min")
+    lines += _row("mean grid power", _fmt(fig["mean_grid_w"], "+.1f", "W"),
                   f"time mean; dead band ±{dead:g} W given")
-    lines += _row("95th pct of |grid|", _fmt(stats.p95_abs_grid_w, ".1f", "W"),
+    lines += _row("95th pct of |grid|", _fmt(fig["p95_abs_grid_w"], ".1f", "W"),
                   f"allowed {3 * dead:g} W (3 D), our default")
-    lines += _row("exported", _fmt(stats.exported_wh, ".1f", "Wh"),
+    lines += _row("exported", _fmt(fig["exported_wh"], ".1f", "Wh"),
                   "integral of the readings (trapezoid)")
-    lines += _row("imported", _fmt(stats.imported_wh, ".1f", "Wh"),
+    lines += _row("imported", _fmt(fig["imported_wh"], ".1f", "Wh"),
                   "integral of the readings (trapezoid)")
-    lines += _row("largest step", _fmt(stats.largest_step_w, "+.0f", "W"),
-                  f"at {stats.step_time_s:.0f} s")
-    settled = ("not settled" if stats.settling_s is None
-               else _fmt(stats.settling_s, ".0f", "s"))
+    lines += _row("largest step", _fmt(fig["largest_step_w"], "+.0f", "W"),
+                  f"at {fig['step_time_s']:.0f} s")
+    settled = ("not settled" if fig["settling_s"] is None
+               else _fmt(fig["settling_s"], ".0f", "s"))
     lines += _row("settling time", settled,
-                  f"into ±{dead:g} W for {hold:g} s (Ogata)")
-    if stats.mean_diverter_w is not None:
-        lines += _row("mean diverted power", _fmt(stats.mean_diverter_w, ".1f", "W"),
+                  f"into ±{dead:g} W for {fig['settling_hold_s']:g} s (Ogata)")
+    if fig["mean_diverter_w"] is not None:
+        lines += _row("mean diverted power", _fmt(fig["mean_diverter_w"], ".1f", "W"),
                       "time mean of diverter_w")
-        lines += _row("diverted", _fmt(stats.diverted_wh, ".1f", "Wh"),
+        lines += _row("diverted", _fmt(fig["diverted_wh"], ".1f", "Wh"),
                       "integral of diverter_w (trapezoid)")
     lines += _para(SIGN_CONVENTION)
-    lines += _verdict_lines(judged.verdict, judged.reason + " (common practice)")
+    lines += _findings_lines(a)
+    lines += _verdict_lines(a.verdict, a.reason + " (common practice)")
     _print(lines)
 
 

@@ -449,3 +449,77 @@ def forced_mode_deviations(settings, power_w, full_power_w) -> ForcedModeFit:
     time_dev = float(np.max(np.abs(y - conduction_power_fraction(s))))
     return ForcedModeFit(tuple(float(v) for v in s), tuple(float(v) for v in y),
                          power_dev, time_dev)
+
+
+def conduction_fraction(firing_angle_rad, threshold=0.05):
+    """Share of the time a phase-cut current spends above ``threshold`` of its own peak.
+
+    The current of a resistive load fired at ``alpha`` is ``Ipk*sin(theta)`` for
+    ``alpha < theta < pi`` in each half cycle; its peak is ``Ipk`` when alpha <= 90 deg and
+    ``Ipk*sin(alpha)`` (the step at firing) beyond. It is above ``threshold * peak`` from
+    ``max(alpha, asin(threshold*s))`` to ``pi - asin(threshold*s)``, with ``s`` the peak
+    over ``Ipk``.
+
+    Parameters
+    ----------
+    firing_angle_rad : float
+        Firing angle [rad].
+    threshold : float, default 0.05
+        Fraction of the peak counted as conducting [1].
+
+    Returns
+    -------
+    float
+        Conducting share of the cycle [1].
+
+    References
+    ----------
+    .. [1] The phase-cut waveform of an AC voltage controller with a resistive load
+       (Rashid, *Power Electronics*, from memory).
+    """
+    alpha = float(firing_angle_rad)
+    s = 1.0 if alpha <= math.pi / 2 else math.sin(alpha)
+    edge = math.asin(min(1.0, threshold * s))
+    return max(0.0, (math.pi - edge - max(alpha, edge)) / math.pi)
+
+
+def firing_angle_from_current(current_a, threshold=0.05):
+    """Firing angle read from a phase-cut current itself, without the voltage.
+
+    The share of samples whose magnitude exceeds ``threshold`` of the largest is inverted
+    through :func:`conduction_fraction` (bisection). A current that never stops (full
+    conduction, or other loads in the premises) gives 0. The voltage is not used, so a
+    clamp on another phase than the voltage reference still gives its own load's angle.
+
+    Parameters
+    ----------
+    current_a : array_like
+        Current samples over whole cycles, many per cycle [A].
+    threshold : float, default 0.05
+        Fraction of the peak counted as conducting (our default) [1].
+
+    Returns
+    -------
+    float
+        Firing angle, 0 ... pi [rad].
+
+    References
+    ----------
+    .. [1] As :func:`conduction_fraction`; CHECKS.md, "The clamp from a phase-cut current".
+    """
+    raw = np.asarray(current_a, dtype=float)
+    i = np.abs(raw - raw.mean()) if raw.size else raw  # a DC offset would read as conduction
+    peak = float(i.max()) if i.size else 0.0
+    if peak <= 0.0:
+        return 0.0
+    share = float(np.count_nonzero(i > threshold * peak)) / i.size
+    if share >= conduction_fraction(0.0, threshold):
+        return 0.0
+    lo, hi = 0.0, math.pi * 0.999
+    for _ in range(60):
+        mid = 0.5 * (lo + hi)
+        if conduction_fraction(mid, threshold) > share:
+            lo = mid
+        else:
+            hi = mid
+    return 0.5 * (lo + hi)

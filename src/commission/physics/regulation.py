@@ -3,7 +3,8 @@
 With surplus available and the element able to take it, a diverter steers the grid reading
 into a dead band around zero. From a log of grid power this module gives the mean, the
 spread (95th percentile of |grid|), the energy still exported and imported, and the
-settling time after the largest step; ``regulation_verdict`` applies the default rule.
+settling time after the largest step. Numbers only: the verdict is the regulation
+analysis's (``commission.analyses.regulation``).
 
 Sign of power: positive = import, for a clamp on the incoming supply conductor with its
 arrow pointing into the premises; export is negative.
@@ -195,57 +196,3 @@ def _settling_time(t, g, band, hold):
         else:
             start = None
     return None
-
-
-@dataclass(frozen=True)
-class RegulationVerdict:
-    """Verdict on regulation in automatic mode.
-
-    Attributes
-    ----------
-    verdict : str
-        ``'pass'`` or ``'fail'``.
-    reason : str
-        One line a person can act on.
-    """
-
-    verdict: str
-    reason: str
-
-
-def regulation_verdict(stats, dead_band_w):
-    """Default rule: pass when |mean| <= D and the 95th percentile of |grid| <= 3*D.
-
-    Parameters
-    ----------
-    stats : RegulationStats
-        Result of :func:`grid_statistics`.
-    dead_band_w : float
-        Installer's dead band D [W].
-
-    Returns
-    -------
-    RegulationVerdict
-
-    References
-    ----------
-    .. [1] Common practice; the factor 3 on the spread is our default.
-    """
-    if not dead_band_w > 0:
-        raise ValueError("dead band must be positive")
-    d = float(dead_band_w)
-    mean_ok = abs(stats.mean_grid_w) <= d
-    spread_ok = stats.p95_abs_grid_w <= 3.0 * d
-    shown = (f"mean grid {stats.mean_grid_w:+.0f} W (dead band +-{d:.0f} W), 95 % of readings "
-             f"within +-{stats.p95_abs_grid_w:.0f} W (allowed {3 * d:.0f} W)")
-    if mean_ok and spread_ok:
-        return RegulationVerdict("pass", shown)
-    problems = []
-    if not mean_ok:
-        side = "importing" if stats.mean_grid_w > 0 else "exporting"
-        problems.append(f"the mean is outside the dead band ({side}: check the clamp, the "
-                        "dead band setting and that surplus was available)")
-    if not spread_ok:
-        problems.append("the reading swings widely (hunting or slow response: check the "
-                        "control settings)")
-    return RegulationVerdict("fail", f"{shown}; " + "; ".join(problems))

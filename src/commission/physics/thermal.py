@@ -5,9 +5,11 @@ behind a thermal resistance: ``T(t) = T_inf - (T_inf - T0)*exp(-t/tau)``. A soak
 output with the enclosure closed gives T0, T_inf and tau by nonlinear least squares; the
 steady state is then scaled to the worst ambient and supply the site will see.
 
-Names: ``fit_first_order`` estimates the model, ``predict_worst_case`` scales it,
-``soak_verdict`` judges it against a limit, ``conduction_loss_w`` and
-``junction_temperature_c`` estimate the semiconductor junction.
+Names: ``fit_first_order`` and ``fit_two_constant`` estimate the models,
+``lag1_autocorrelation`` and ``information_criteria`` compare them, ``predict_worst_case``
+scales a steady state, ``conduction_loss_w`` and ``junction_temperature_c`` estimate the
+semiconductor junction. Numbers only: the verdict is the soak analysis's
+(``commission.analyses.soak``).
 
 References
 ----------
@@ -26,12 +28,6 @@ from dataclasses import dataclass
 
 import numpy as np
 
-# Fit quality below which a soak is judged 'review' rather than trusted: our defaults.
-DEFAULT_MAX_RMSE_K = 1.0
-# Largest relative standard error of tau still trusted for extrapolating to the steady
-# state: beyond it the linearised interval of T_inf misses the truth far more often than
-# 5 % (seen in Monte Carlo on soaks under a third of a time constant); our default.
-DEFAULT_MAX_TAU_REL_STDERR = 0.25
 _MIN_POINTS = 6
 _Z975 = 1.959963984540054  # standard normal 97.5 % quantile
 
@@ -179,12 +175,24 @@ def fit_first_order(time_s, temp_c):
 
 
 def _separable(t, y, tau):
-    """Sum of squares and the linear parameters (T0, T_inf) for a given tau."""
+    """Sum of squares and the linear parameters (T0, T_inf) for a given tau.
+
+    y = T0·e + T_inf·(1 − e) = T_inf + (T0 − T_inf)·e: a straight line in e, solved by its
+    normal equations (ordinary least squares)."""
     e = np.exp(-t / tau)
-    basis = np.column_stack((e, 1.0 - e))
-    coef, *_ = np.linalg.lstsq(basis, y, rcond=None)
-    r = y - basis @ coef
-    return float(r @ r), float(coef[0]), float(coef[1])
+    n = e.size
+    se, sy = float(e.sum()), float(y.sum())
+    see, sey = float(e @ e), float(e @ y)
+    den = n * see - se * se
+    if not den > 1e-12 * n * max(see, 1e-300):
+        coef, *_ = np.linalg.lstsq(np.column_stack((e, 1.0 - e)), y, rcond=None)
+        t0, tinf = float(coef[0]), float(coef[1])
+    else:
+        slope = (n * sey - se * sy) / den  # T0 - T_inf
+        tinf = (sy - slope * se) / n
+        t0 = tinf + slope
+    r = y - (tinf + (t0 - tinf) * e)
+    return float(r @ r), t0, tinf
 
 
 def _golden_min(func, lo, hi, iterations=80):
@@ -352,79 +360,220 @@ def predict_worst_case(fit, ambient_c, *, worst_ambient_c=None, rise_factor=1.0)
 
 
 @dataclass(frozen=True)
-class SoakVerdict:
-    """Verdict of a soak against a temperature limit.
+class TwoConstantFit:
+    """Fit of ``T(t) = T_inf - A_fast*exp(-t/tau_fast) - A_slow*exp(-t/tau_slow)``.
 
     Attributes
     ----------
-    verdict : str
-        ``'pass'``, ``'fail'`` or ``'review'``.
-    reason : str
-        One line a person can act on.
+    t_inf_c : float
+        Fitted steady state [degC] (or steady rise [K] when fitted on the rise).
+    a_fast_k, a_slow_k : float
+        Amplitudes of the fast and slow terms [K].
+    tau_fast_s, tau_slow_s : float
+        Time constants, fast < slow [s].
+    t_inf_stderr_k : float
+        Standard error of ``t_inf_c`` (linearised, all five parameters) [K]; infinite when
+        the slow constant is not determined.
+    rmse_k : float
+        Root mean square of the residuals [K].
+    sse_k2 : float
+        Sum of squared residuals [K^2].
+    points : int
+        Readings [1].
+    duration_s : float
+        Span of the log [s].
+    slow_at_bound : bool
+        True when the slow constant ran to the edge of its range: the log is too short to
+        show it, and ``t_inf_c`` is not determined.
     """
 
-    verdict: str
-    reason: str
+    t_inf_c: float
+    a_fast_k: float
+    tau_fast_s: float
+    a_slow_k: float
+    tau_slow_s: float
+    t_inf_stderr_k: float
+    rmse_k: float
+    sse_k2: float
+    points: int
+    duration_s: float
+    slow_at_bound: bool
+
+    def model(self, time_s):
+        """The fitted curve at ``time_s`` (from the first reading) [degC]."""
+        t = np.asarray(time_s, dtype=float)
+        return (self.t_inf_c - self.a_fast_k * np.exp(-t / self.tau_fast_s)
+                - self.a_slow_k * np.exp(-t / self.tau_slow_s))
 
 
-def soak_verdict(fit, prediction, limit_c, *, max_rmse_k=DEFAULT_MAX_RMSE_K,
-                 max_tau_rel_stderr=DEFAULT_MAX_TAU_REL_STDERR):
-    """Judge a soak against the heatsink limit.
+_SLOW_MAX_FACTOR = 20.0  # the slow constant is searched up to 20 x the log length
 
-    In this order: ``fail`` when a logged value already reaches the limit; ``review`` when
-    the fit is poor (RMSE above ``max_rmse_k``, tau at the edge of its range, T_inf
-    undetermined, or tau known only to worse than ``max_tau_rel_stderr``); ``fail`` when
-    even the lower bound of the predicted maximum exceeds the limit; ``pass`` when the
-    upper bound is below it; otherwise ``review`` (the interval straddles the limit,
-    typically a soak well under two time constants).
+
+def fit_two_constant(time_s, temp_c):
+    """Fit two time constants (heatsink and enclosure air) by nonlinear least squares.
+
+    The sum-of-exponentials (Foster) form of a thermal network [1]_. For fixed time
+    constants the model is linear in (T_inf, A_fast, A_slow), so a grid over both
+    constants with linear least squares at each point (separable least squares [2]_)
+    gives the start for ``scipy.optimize.least_squares`` on all five parameters (time
+    constants as logarithms). The standard error of T_inf comes from ``s^2 (J^T J)^-1`` at
+    the optimum [2]_.
 
     Parameters
     ----------
-    fit : FirstOrderFit
-        Result of :func:`fit_first_order`.
-    prediction : SteadyStatePrediction
-        Result of :func:`predict_worst_case`.
-    limit_c : float
-        Highest permissible heatsink temperature [degC].
-    max_rmse_k : float, default 1.0
-        Largest RMSE of a fit still trusted (our default) [K].
-    max_tau_rel_stderr : float, default 0.25
-        Largest standard error of tau, relative to tau, still trusted for the
-        extrapolation (our default) [1].
+    time_s : array_like
+        Times of the readings, increasing [s].
+    temp_c : array_like
+        Temperatures, or rises over ambient [degC] or [K].
 
     Returns
     -------
-    SoakVerdict
+    TwoConstantFit
+
+    Raises
+    ------
+    ValueError
+        Fewer than 8 readings, NaN, or times that do not increase.
 
     References
     ----------
-    .. [1] Rule from CHECKS.md (heatsink of the power stage), our own.
+    .. [1] Transient thermal impedance Zth(t) = sum Ri (1 - exp(-t/tau_i)) of semiconductor
+       datasheets (Foster network); Incropera & DeWitt for the lumped terms.
+    .. [2] Bates & Watts 1988, separable least squares and linearised intervals.
     """
-    lo, hi = prediction.predicted_max_ci_c
-    shown = (f"predicted steady state {prediction.predicted_max_c:.1f} degC "
-             f"(95 % interval {lo:.1f} to {hi:.1f} degC) against the {limit_c:.1f} degC limit")
-    if fit.max_logged_c >= limit_c:
-        return SoakVerdict("fail", f"a logged value ({fit.max_logged_c:.1f} degC) already "
-                                   f"reaches the {limit_c:.1f} degC limit; improve cooling "
-                                   "or derate the diverter")
-    if fit.rmse_k > max_rmse_k or fit.tau_at_bound or not math.isfinite(fit.t_inf_stderr_k):
-        return SoakVerdict("review", f"the first-order model does not fit the log well (RMSE "
-                                     f"{fit.rmse_k:.2f} K, tau {fit.tau_s:.0f} s); check the "
-                                     "log for power or enclosure changes and repeat the soak")
-    if fit.tau_stderr_s > max_tau_rel_stderr * fit.tau_s:
-        return SoakVerdict("review", f"the soak is too short to extrapolate: it covers "
-                                     f"{fit.time_constants_covered:.1f} fitted time constants "
-                                     f"and tau ({fit.tau_s:.0f} s) is uncertain by "
-                                     f"{100 * fit.tau_stderr_s / fit.tau_s:.0f} %; extend the "
-                                     "soak to at least two time constants")
-    if lo > limit_c:
-        return SoakVerdict("fail", f"{shown}: the heatsink will overheat even though every "
-                                   "logged value is below the limit; improve cooling or derate")
-    if hi < limit_c:
-        return SoakVerdict("pass", shown)
-    return SoakVerdict("review", f"{shown}: the interval straddles the limit (soak covers "
-                                 f"{fit.time_constants_covered:.1f} time constants); extend "
-                                 "the soak to at least two time constants")
+    from scipy.optimize import least_squares
+
+    t_abs = np.asarray(time_s, dtype=float).ravel()
+    y = np.asarray(temp_c, dtype=float).ravel()
+    if t_abs.size != y.size:
+        raise ValueError(f"{t_abs.size} times but {y.size} temperatures")
+    if t_abs.size < 8:
+        raise ValueError("a two-constant fit needs at least 8 readings")
+    if not (np.all(np.isfinite(t_abs)) and np.all(np.isfinite(y))):
+        raise ValueError("the soak log contains NaN or infinite values")
+    steps = np.diff(t_abs)
+    if np.any(steps <= 0):
+        raise ValueError("the times of a soak log must increase")
+    t = t_abs - t_abs[0]
+    duration = float(t[-1])
+    lo = math.log(max(0.5 * float(steps.min()), duration / 500.0))
+    hi = math.log(_SLOW_MAX_FACTOR * duration)
+    grid = np.linspace(lo, hi, 36)
+    # Normal equations of the linear parameters for every pair of constants at once.
+    e = np.exp(-t[None, :] / np.exp(grid)[:, None])  # (grid, n)
+    gram, sums, ey = e @ e.T, e.sum(axis=1), e @ y
+    ia, ib = np.triu_indices(grid.size, k=2)
+    n_pts = float(t.size)
+    mats = np.empty((ia.size, 3, 3))
+    mats[:, 0, 0] = n_pts
+    mats[:, 0, 1] = mats[:, 1, 0] = -sums[ia]
+    mats[:, 0, 2] = mats[:, 2, 0] = -sums[ib]
+    mats[:, 1, 1] = gram[ia, ia]
+    mats[:, 2, 2] = gram[ib, ib]
+    mats[:, 1, 2] = mats[:, 2, 1] = gram[ia, ib]
+    rhs = np.column_stack((np.full(ia.size, y.sum()), -ey[ia], -ey[ib]))
+    with np.errstate(all="ignore"):
+        det = np.linalg.det(mats)
+        ok = np.abs(det) > 1e-12 * np.abs(mats).max(axis=(1, 2)) ** 3
+        coefs = np.zeros_like(rhs)
+        coefs[ok] = np.linalg.solve(mats[ok], rhs[ok][..., None])[..., 0]
+        sse = float(y @ y) - np.einsum("ij,ij->i", coefs, rhs)
+    sse[~ok] = np.inf
+    k = int(np.argmin(sse))
+    coef, g1, g2 = coefs[k], grid[ia[k]], grid[ib[k]]
+
+    def residuals(p):
+        tinf, a1, a2, l1, l2 = p
+        return y - (tinf - a1 * np.exp(-t / math.exp(l1)) - a2 * np.exp(-t / math.exp(l2)))
+
+    start = np.array([coef[0], coef[1], coef[2], g1, g2])
+    fit = least_squares(residuals, start, bounds=([-np.inf, -np.inf, -np.inf, lo, lo],
+                                                  [np.inf, np.inf, np.inf, hi, hi]),
+                        x_scale="jac", max_nfev=2000)
+    tinf, a1, a2, l1, l2 = (float(x) for x in fit.x)
+    if l1 > l2:
+        a1, a2, l1, l2 = a2, a1, l2, l1
+    r = residuals(np.array([tinf, a1, a2, l1, l2]))
+    sse = float(r @ r)
+    n = y.size
+    at_bound = hi - l2 < 0.05
+    jac = -_two_constant_jacobian(t, a1, a2, l1, l2)
+    try:
+        cov = (sse / max(1, n - 5)) * np.linalg.inv(jac.T @ jac)
+        var = float(cov[0, 0])
+    except np.linalg.LinAlgError:
+        var = math.inf
+    if not (math.isfinite(var) and var >= 0) or at_bound:
+        var = math.inf
+    return TwoConstantFit(
+        t_inf_c=tinf, a_fast_k=a1, tau_fast_s=math.exp(l1), a_slow_k=a2,
+        tau_slow_s=math.exp(l2), t_inf_stderr_k=math.sqrt(var), rmse_k=math.sqrt(sse / n),
+        sse_k2=sse, points=int(n), duration_s=duration, slow_at_bound=bool(at_bound),
+    )
+
+
+def _two_constant_jacobian(t, a1, a2, l1, l2):
+    """d(model)/d(T_inf, A1, A2, log tau1, log tau2)."""
+    e1 = np.exp(-t / math.exp(l1))
+    e2 = np.exp(-t / math.exp(l2))
+    return np.column_stack((np.ones_like(t), -e1, -e2,
+                            -a1 * e1 * t / math.exp(l1), -a2 * e2 * t / math.exp(l2)))
+
+
+def first_order_model(fit, time_s):
+    """The first-order curve of ``fit`` at ``time_s`` (from the first reading) [degC]."""
+    t = np.asarray(time_s, dtype=float)
+    return fit.t_inf_c - (fit.t_inf_c - fit.t0_c) * np.exp(-t / fit.tau_s)
+
+
+def lag1_autocorrelation(residuals):
+    """Lag-1 autocorrelation of residuals: near 0 for white noise, near 1 when a model
+    misses a slow structure (Box & Jenkins, *Time Series Analysis*).
+
+    Parameters
+    ----------
+    residuals : array_like
+        Residuals in time order [K].
+
+    Returns
+    -------
+    float
+        r1 [1]; 0 for fewer than 3 values or all-zero residuals.
+    """
+    r = np.asarray(residuals, dtype=float)
+    r = r - r.mean()
+    den = float(r @ r)
+    if r.size < 3 or den <= 0:
+        return 0.0
+    return float(r[:-1] @ r[1:]) / den
+
+
+def information_criteria(sse, points, parameters):
+    """Akaike and Bayesian information criteria of a least-squares fit with normal errors:
+    ``AIC = n ln(SSE/n) + 2k``, ``BIC = n ln(SSE/n) + k ln n``.
+
+    Parameters
+    ----------
+    sse : float
+        Sum of squared residuals [K^2].
+    points : int
+        Readings n [1].
+    parameters : int
+        Fitted parameters k [1].
+
+    Returns
+    -------
+    tuple of float
+        (AIC, BIC) [1].
+
+    References
+    ----------
+    .. [1] K. P. Burnham, D. R. Anderson, *Model Selection and Multimodel Inference*,
+       2nd ed., Springer 2002, sections 2.2 and 6.4.
+    """
+    n = int(points)
+    base = n * math.log(max(float(sse), 1e-12 * n) / n)
+    return base + 2.0 * parameters, base + parameters * math.log(n)
 
 
 def conduction_loss_w(i_avg_a, i_rms_a, v_t0_v, r_t_ohm):

@@ -14,8 +14,10 @@ Public names:
   of any size, in bounded memory, giving the same figures as :func:`analyse`.
 * :func:`fit_mains_sine` -- frequency and amplitude of a short stretch of voltage.
 * :func:`sample_rate_from_times` -- sample rate and start of an evenly spaced time column.
-* :func:`power_direction` and :func:`classify_clamp` -- what the figures say about the
-  direction of power flow and the orientation of the current clamp.
+* :func:`power_direction` -- the direction of power flow from the sign of P.
+* :func:`cycle_powers`, :func:`dc_removed_power_factor` -- P per cycle (its spread) and the
+  power factor without DC offsets. The clamp verdict is the capture analysis's
+  (:mod:`commission.analyses.capture`): physics returns numbers only.
 
 Sign of power: positive = import, energy flowing from the grid into the premises, for a
 clamp on the incoming supply conductor with its arrow pointing into the premises.
@@ -830,96 +832,68 @@ def power_direction(p_w, s_va):
     return "import" if p_w > 0 else "export"
 
 
-@dataclass(frozen=True)
-class ClampCheck:
-    """Verdict on the orientation of the current clamp.
+def cycle_powers(sample_rate_hz, voltage_v, current_a, frequency_hz):
+    """Active power of each whole mains cycle, for the cycle-to-cycle spread of P.
 
-    Attributes
-    ----------
-    verdict : str
-        ``'pass'``, ``'fail'`` or ``'review'``.
-    likely_cause : str
-        ``'as expected'``, ``'reversed'``, ``'another phase'``,
-        ``'another phase and reversed'``, ``'reactive load or wrong reference'``,
-        ``'no expectation'``, or ``'unknown'`` (no current fundamental).
-    reason : str
-        One line a person can act on.
-    """
-
-    verdict: str
-    likely_cause: str
-    reason: str
-
-
-_CLAMP_CAVEAT = (
-    "The test is only meaningful with a mostly resistive load and the diverter off or at "
-    "full output."
-)
-
-
-def classify_clamp(phase_deg, expect=None):
-    """Judge the clamp orientation from the angle of the current fundamental.
-
-    With import expected the current fundamental should be in phase with the voltage
-    (0 deg); with export expected, in anti-phase (180 deg). With ``d`` the deviation from
-    that: |d| <= 45 deg pass; |d| >= 135 deg fail (clamp reversed); in between fail, naming
-    the nearest pattern: about 120 deg -- clamp and voltage reference on different phases;
-    about 60 deg -- another phase and reversed; about 90 deg -- little active power, a
-    reactive load or a wrong reference. Without an expectation the verdict is review.
+    Cycles are laid end to end from the first sample at the given frequency; each sample
+    stands for half a sample interval either side, and a sample cut by a cycle boundary
+    counts in proportion (as in the windows of :class:`CaptureAccumulator`).
 
     Parameters
     ----------
-    phase_deg : float
-        Signed angle of the current fundamental relative to the voltage fundamental,
-        positive when the current leads [deg].
-    expect : {'import', 'export', None}
-        The direction the installer expects at the moment of the capture.
+    sample_rate_hz : float
+        Sampling rate [Hz].
+    voltage_v, current_a : array_like
+        Samples [V], [A].
+    frequency_hz : float
+        Mains frequency [Hz].
 
     Returns
     -------
-    ClampCheck
+    numpy.ndarray
+        P of each whole cycle, positive = import [W].
 
     References
     ----------
-    .. [1] Phasor angles of a three-phase system, 120 deg apart (any textbook on power
-       systems); the 45 deg pass band is our default.
+    .. [1] IEEE Std 1459-2010, active power as the mean of v*i over whole cycles.
     """
-    if expect not in (None, "import", "export"):
-        raise ValueError(f"expect must be 'import', 'export' or None, got {expect!r}")
-    phi = float(phase_deg)
-    if not math.isfinite(phi):
-        return ClampCheck("review", "no expectation" if expect is None else "unknown",
-                          "The current has no fundamental, so its angle cannot be judged. "
-                          + _CLAMP_CAVEAT)
-    shown = f"the current fundamental is at {phi:+.1f} deg to the voltage"
-    if expect is None:
-        flow = "import" if abs(phi) <= 90 else "export"
-        return ClampCheck("review", "no expectation",
-                          f"{shown.capitalize()}, which reads as {flow}; give the expected "
-                          f"direction to judge the clamp. {_CLAMP_CAVEAT}")
-    reference = 0.0 if expect == "import" else 180.0
-    dev = (phi - reference + 180.0) % 360.0 - 180.0
-    other = "export" if expect == "import" else "import"
-    if abs(dev) <= 45.0:
-        return ClampCheck("pass", "as expected",
-                          f"{shown.capitalize()}: power flows as {expect}, as expected. "
-                          f"{_CLAMP_CAVEAT}")
-    if abs(dev) >= 135.0:
-        return ClampCheck("fail", "reversed",
-                          f"{shown.capitalize()}: it reads {other} while {expect} was "
-                          "expected; the clamp is probably reversed (its arrow must point "
-                          f"into the premises). {_CLAMP_CAVEAT}")
-    if abs(dev) < 75.0:
-        cause = "another phase and reversed"
-        advice = ("the clamp is probably on another phase than the voltage reference and "
-                  "also reversed")
-    elif abs(dev) <= 105.0:
-        cause = "reactive load or wrong reference"
-        advice = ("there is almost no active power: a mostly reactive load, or the voltage "
-                  "reference is not the one the clamp's conductor is fed from")
-    else:
-        cause = "another phase"
-        advice = "the clamp and the voltage reference are probably on different phases"
-    return ClampCheck("fail", cause,
-                      f"{shown.capitalize()}, {abs(dev):.0f} deg away from {expect}: {advice}. "
-                      f"{_CLAMP_CAVEAT}")
+    v = np.asarray(voltage_v, dtype=float)
+    i = np.asarray(current_a, dtype=float)
+    period = float(sample_rate_hz) / float(frequency_hz)
+    count = int(math.floor((v.size - 1) / period))
+    out = np.empty(count)
+    p = v * i
+    for k in range(count):
+        a, b = k * period, (k + 1) * period
+        n_lo = int(math.floor(a + 0.5))
+        n_hi = min(int(math.ceil(b - 0.5)), v.size - 1)
+        n = np.arange(n_lo, n_hi + 1, dtype=float)
+        w = np.clip(np.minimum(b, n + 0.5) - np.maximum(a, n - 0.5), 0.0, 1.0)
+        out[k] = float(w @ p[n_lo:n_hi + 1]) / (b - a)
+    return out
+
+
+def dc_removed_power_factor(voltage_v, current_a):
+    """Power factor with the DC offsets of both channels removed: P_ac / (V_ac * I_ac).
+
+    Parameters
+    ----------
+    voltage_v, current_a : array_like
+        Samples over whole cycles [V], [A].
+
+    Returns
+    -------
+    tuple of float
+        (power factor without DC [1], DC offset of the voltage [V], of the current [A]).
+
+    References
+    ----------
+    .. [1] IEEE Std 1459-2010: the DC component is treated apart from the AC quantities.
+    """
+    v = np.asarray(voltage_v, dtype=float)
+    i = np.asarray(current_a, dtype=float)
+    vdc, idc = float(v.mean()), float(i.mean())
+    va, ia = v - vdc, i - idc
+    s = math.sqrt(float(va @ va) / v.size) * math.sqrt(float(ia @ ia) / i.size)
+    pf = float(va @ ia) / v.size / s if s > 0 else math.nan
+    return pf, vdc, idc

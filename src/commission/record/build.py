@@ -56,11 +56,16 @@ def _entry(e, instruments, uuids: dict[int, str], kinds: dict[str, str]) -> dict
         # what was typed was a local path: the record keeps the file's name only
         value = {**value, "name": file_name(str(value.get("name", "")))}
         raw = value["name"]
-    return {"uuid": e.uuid, "item": e.item_id, "action": e.action, "raw": raw,
-            "value": value, "unit_typed": e.unit_typed,
-            "instrument": inst.serial if inst else None, "at": e.at,
-            "device": e.host if _DEVICE.fullmatch(e.host or "") else None,
-            "supersedes": uuids.get(e.supersedes) if e.supersedes else None}
+    out = {"uuid": e.uuid, "item": e.item_id, "action": e.action, "raw": raw,
+           "value": value, "unit_typed": e.unit_typed,
+           "instrument": inst.serial if inst else None, "at": e.at,
+           "device": e.host if _DEVICE.fullmatch(e.host or "") else None,
+           "supersedes": uuids.get(e.supersedes) if e.supersedes else None}
+    # the export profile a file was read with travels with its entry (only when one was
+    # used, so records without one keep their shape)
+    if getattr(e, "read_with", None):
+        out["read_with"] = e.read_with
+    return out
 
 
 def build(state, results, generated_at: str, signing: SigningInfo | None = None,

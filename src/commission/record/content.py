@@ -395,7 +395,7 @@ def entries_from_record(record: AnyRecord):
                                     acc.read_as if acc else "")
         by_serial[inst.serial] = n
     entries = [Entry(n, e.uuid, e.item, e.action, e.raw, e.value, e.unit_typed,
-                     by_serial.get(e.instrument or ""), e.at, "", None, "")
+                     by_serial.get(e.instrument or ""), e.at, "", None, "", e.read_with)
                for n, e in enumerate(record.entries, start=1)]
     for n, e in enumerate(record.entries):
         if e.instrument is not None and e.instrument not in by_serial:

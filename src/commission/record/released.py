@@ -28,11 +28,13 @@ RELEASED: dict[str, dict[str, tuple[str, ...]]] = {
         "1.4.0": ("d571c6d3ad6a7034539031a7461ca0716c99bbfbafb674a2d00aefaabadc3128",),
         "1.5.0": ("816c4ff5875af9e6abfa4dda5e9e20ca4544c9f30cf66de8db237dc72b4d0334",
                   "18e1bc169056a1eed8f477984a668157c34a63bacf4635d04e40f850e2fe0d72"),
+        "1.6.0": ("595af612f4a537fb7dfbb5a951e09fafb5514de6fb0dec5a90dd2346963f862f",),
     },
     # A checklist that includes sections from another is hashed as a job stores it: the
     # resolved text (here 1.0.0 resolved against diverter-1ph 1.5.0).
     "diverter-3ph": {
         "1.0.0": ("1f8209b95d88076ba32ab8fd8cd6227aebdd27b492012c0e021566bc3ec6b8ae",),
+        "1.1.0": ("8521ceafa6774608d5cdfc10a54044f7fd37b423c79a9012272c00428d26ec70",),
     },
 }
 

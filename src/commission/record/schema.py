@@ -220,6 +220,9 @@ class Entry(_Strict):
     at: Timestamp
     device: Annotated[StrictStr, Field(pattern=DEVICE)] | None  # random id of the computer
     supersedes: Uuid | None
+    # the export profile a file was read with (columns, time format and zone, scales), so
+    # verify reads the file the same way; present only when a profile was used
+    read_with: dict[str, Any] | None = None
 
 
 class Record(_Strict):
@@ -274,6 +277,7 @@ class EntryV1(_Strict):
     by: Line
     supersedes: StrictInt | None
     host: Line = ""
+    read_with: dict[str, Any] | None = None
 
 
 class RecordV1(_Strict):

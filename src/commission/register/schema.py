@@ -6,7 +6,7 @@ release is migrated on first use; a newer one is refused rather than damaged.
 
 from __future__ import annotations
 
-SCHEMA_VERSION = 6
+SCHEMA_VERSION = 7
 
 # Step n brings a register from version n-1 to n. Never edit a released step:
 # add the next one.
@@ -102,13 +102,24 @@ MIGRATIONS: dict[int, str] = {
     ALTER TABLE instruments ADD COLUMN accuracy TEXT NOT NULL DEFAULT '';
     ALTER TABLE instruments ADD COLUMN accuracy_read_as TEXT NOT NULL DEFAULT '';
     """,
-    # 6: records name a computer by a random device id, never by its host name (issue 8):
+    # 6: an instrument may carry an export profile (how to read its files: columns, time
+    # format and zone, scales), and an entry of a file item keeps the profile it was read
+    # with, so the record and `verify` read the file the same way. Older entries: NULL.
+    6: """
+    CREATE TABLE export_profiles (
+        instrument_id INTEGER PRIMARY KEY REFERENCES instruments(id),
+        profile_json TEXT NOT NULL,
+        updated_at TEXT NOT NULL
+    );
+    ALTER TABLE entries ADD COLUMN read_with TEXT;
+    """,
+    # 7: records name a computer by a random device id, never by its host name (issue 8):
     # the register keeps its device id in `settings`, and new entries store it in `host`.
     # `jobs.imported` says how a job came in: '' made here, 'verified' or 'unverified'
     # (imported with --unverified; shown wherever the job is shown). `jobs.recorded` keeps,
     # for an imported job, the record's own verdicts and check-logic version as JSON, so
     # they stay visible beside today's ('' for jobs made here).
-    6: """
+    7: """
     CREATE TABLE settings (
         key TEXT PRIMARY KEY,
         value TEXT NOT NULL

@@ -112,7 +112,8 @@ class Entry:
     by: str
     supersedes: int | None
     host: str = ""  # the device id of the register it was typed into ('' or a host name
-    #                 in entries made before schema 6)
+    #                 in entries made before schema 7)
+    read_with: dict[str, Any] | None = None  # export profile a file was read with
 
 
 @dataclass(frozen=True)
@@ -368,6 +369,7 @@ class Register:
         at: str | None = None,
         uuid: str | None = None,
         host: str | None = None,
+        read_with: dict[str, Any] | None = None,
     ) -> Entry:
         """Append one entry and commit it before returning."""
         device = self.device_id() if host is None else host
@@ -378,24 +380,27 @@ class Register:
             ).fetchone()
             cur = self._write(
                 "INSERT INTO entries (uuid, job_id, item_id, action, raw, value_json, unit_typed,"
-                " instrument_id, at, by, supersedes, host) VALUES (?,?,?,?,?,?,?,?,?,?,?,?)",
+                " instrument_id, at, by, supersedes, host, read_with)"
+                " VALUES (?,?,?,?,?,?,?,?,?,?,?,?,?)",
                 (uuid or str(uuidlib.uuid4()), job.id, item_id, action, raw,
                  json.dumps(value, ensure_ascii=False), unit_typed, instrument_id,
                  at or now_iso(), by or who(), prev[0] if prev else None,
-                 device),
+                 device,
+                 json.dumps(read_with, sort_keys=True) if read_with else None),
             )
         return self._entry_by_id(cur.lastrowid)
 
     def _entry_by_id(self, entry_id: int) -> Entry:
         row = self.db.execute(
             "SELECT id, uuid, item_id, action, raw, value_json, unit_typed, instrument_id, at, by,"
-            " supersedes, host FROM entries WHERE id = ?", (entry_id,)).fetchone()
+            " supersedes, host, read_with FROM entries WHERE id = ?", (entry_id,)).fetchone()
         return _entry(row)
 
     def _entries(self, job_id: int, where: str = "") -> list[Entry]:
         rows = self.db.execute(
             "SELECT id, uuid, item_id, action, raw, value_json, unit_typed, instrument_id, at, by,"
-            f" supersedes, host FROM entries WHERE job_id = ? {where} ORDER BY id", (job_id,))
+            f" supersedes, host, read_with FROM entries WHERE job_id = ? {where} ORDER BY id",
+            (job_id,))
         return [_entry(r) for r in rows]
 
     def entries(self, job: Job) -> list[Entry]:
@@ -442,6 +447,37 @@ class Register:
                 "INSERT INTO job_instrument (job_id, instrument_id, at) VALUES (?,?,?)"
                 " ON CONFLICT(job_id) DO UPDATE SET instrument_id = excluded.instrument_id,"
                 " at = excluded.at", (job.id, instrument.id if instrument else None, now_iso()))
+
+    # -- export profiles -----------------------------------------------------
+    def set_export_profile(self, serial: str, profile: dict[str, Any]) -> Instrument:
+        """Save (or replace) how files of this instrument are read."""
+        inst = self.instrument_by_serial(serial)
+        with self._transaction():
+            self._write("INSERT INTO export_profiles (instrument_id, profile_json, updated_at)"
+                        " VALUES (?,?,?) ON CONFLICT(instrument_id) DO UPDATE SET"
+                        " profile_json = excluded.profile_json, updated_at = excluded.updated_at",
+                        (inst.id, json.dumps(profile, sort_keys=True), now_iso()))
+        return inst
+
+    def export_profile_json(self, instrument_id: int) -> dict[str, Any] | None:
+        """The stored export profile of an instrument, or None."""
+        row = self.db.execute("SELECT profile_json FROM export_profiles WHERE instrument_id = ?",
+                              (instrument_id,)).fetchone()
+        return json.loads(row[0]) if row else None
+
+    def export_profile(self, serial: str):
+        """The export profile of an instrument as ReadSettings (empty if none saved)."""
+        from ..analyses import ReadSettings, SettingsError
+
+        inst = self.instrument_by_serial(serial)
+        data = self.export_profile_json(inst.id)
+        if data is None:
+            raise UserError(f"instrument '{serial}': has no export profile; save one with "
+                            f"'commission instruments profile {serial} --columns ...'")
+        try:
+            return ReadSettings.from_json(data)
+        except SettingsError as exc:
+            raise UserError(f"instrument '{serial}': stored export profile: {exc}") from None
 
     # -- files and photos ----------------------------------------------------
     def put_file(self, path: Path) -> tuple[str, int]:
@@ -592,7 +628,8 @@ def _cannot_write(path: Path, exc: sqlite3.Error) -> RegisterError:
 def _entry(row: tuple) -> Entry:
     return Entry(row[0], row[1], row[2], row[3], row[4],
                  json.loads(row[5]) if row[5] is not None else None,
-                 row[6], row[7], row[8], row[9], row[10], row[11])
+                 row[6], row[7], row[8], row[9], row[10], row[11],
+                 json.loads(row[12]) if len(row) > 12 and row[12] else None)
 
 
 def _statements(script: str) -> list[str]:

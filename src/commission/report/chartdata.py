@@ -4,7 +4,9 @@ A checklist item asks for a chart with ``report: {chart: true}``; the chart draw
 one registered here under the name of the item's check, fed by the item's own answer
 and the check's inputs by input name. This module never names an item: any checklist
 whose items carry these checks gets the same charts. A drawer returns None where its
-data is missing (no file recorded, a file that cannot be read).
+data is missing (no file recorded, a file that cannot be read). A recorded file's chart
+is drawn from the chart data of the analysis its check made (``Result.analysis``, from
+:mod:`commission.analyses`): the file is never read or fitted a second way here.
 """
 
 from __future__ import annotations
@@ -108,26 +110,21 @@ SIGN_NOTE = ("Sign convention: positive current and power = import (clamp on the
              "line, arrow into the premises).")
 
 
+def _analysis(data: ChartInput, kind: str):
+    """The analysis the item's check made of its file (commission.analyses): the chart
+    shows exactly what the verdict was based on, never a second reading of the file."""
+    a = getattr(data.result, "analysis", None)
+    return a if a is not None and a.kind == kind and a.chart else None
+
+
 @chart("clamp_capture")
 def _waveform(data: ChartInput) -> Drawn | None:
-    if data.path is None or str(data.value.get("name", "")).lower().endswith(".wav"):
+    a = _analysis(data, "capture")
+    if a is None:
         return None
-    from ..captures import CaptureError, read_capture_csv
-    from ..physics.waveform import analyse
-
-    try:
-        cap = read_capture_csv(data.path)
-        a = analyse(cap.sample_rate_hz, cap.voltage_v, cap.current_a)
-    except (CaptureError, ValueError):
-        return None
-    n = min(len(cap.voltage_v), int(round(3 * cap.sample_rate_hz / a.frequency_hz)))
-    step = max(1, n // 600)
-    t = [k / cap.sample_rate_hz for k in range(0, n, step)]
-    v = [float(x) for x in cap.voltage_v[:n:step]]
-    i = [float(x) for x in cap.current_a[:n:step]]
-    return (charts.waveform(t, v, i, SIGN_NOTE),
-            f"Clamp capture, three cycles: P {a.p_w:+.0f} W, φ1 {a.phase_deg:+.1f}°, "
-            f"{a.frequency_hz:.2f} Hz (IEEE 1459-2010; DFT per IEC 61000-4-7).")
+    ch = a.chart
+    return (charts.waveform(ch["time_s"], ch["voltage_v"], ch["current_a"], SIGN_NOTE),
+            ch["caption"])
 
 
 @chart("clamp_phase_capture")
@@ -228,61 +225,30 @@ def _heating_run(data: ChartInput) -> Drawn | None:
 
 @chart("heating_log")
 def _heating_log(data: ChartInput) -> Drawn | None:
-    if data.path is None or data.result.expected is None or data.result.expected.min is None:
+    a = _analysis(data, "heating")
+    if a is None:
         return None
-    from ..captures import CaptureError, read_heating_log
-    from ..physics import water
-
-    try:
-        log = read_heating_log(data.path)
-        fit = water.fit_heating_rate(log.time_s, log.temp_c)
-    except (CaptureError, ValueError):
-        return None
-    rate = _expected_rate(data.result, data.params)
-    logged = _thin(list(zip([float(x) / 60.0 for x in log.time_s],
-                            [float(x) for x in log.temp_c], strict=True)))
-    t0, t1 = fit.fit_start_s / 60.0, fit.fit_end_s / 60.0
-    fitted = [(t0, fit.start_temp_c), (t1, fit.end_temp_c)]
-    predicted = [(t0, fit.start_temp_c), (t1, fit.start_temp_c + rate * (t1 - t0) / 60)]
+    ch = a.chart
     return (charts.temperature_curve(
-        [("logged", logged, charts.BLUE, True), ("fitted", fitted, charts.INK, False),
-         ("expected", predicted, charts.GREY, False)],
-        [], "time [min]", "Heating run at full output (temperature log)"),
-        f"Fitted {fit.rate_k_per_h:.1f} K/h over the steady part against {rate:.1f} K/h "
-        "expected from the element's power (P/(m·cp), IAPWS-95 water properties).")
+        [("logged", _thin(ch["logged"]), charts.BLUE, True),
+         ("fitted", ch["fitted"], charts.INK, False),
+         ("expected", ch["expected"], charts.GREY, False)],
+        [], "time [min]", "Heating run at full output (temperature log)"), ch["caption"])
 
 
 @chart("heatsink_soak")
 def _soak(data: ChartInput) -> Drawn | None:
-    if data.path is None:
+    a = _analysis(data, "soak")
+    if a is None:
         return None
-    from ..captures import CaptureError, read_soak_log
-    from ..physics import thermal
-
-    try:
-        log = read_soak_log(data.path)
-        fit = thermal.fit_first_order(log.time_s, log.temp_c)
-    except (CaptureError, ValueError):
-        return None
-    t = [float(x) / 60.0 for x in log.time_s]
-    logged = _thin(list(zip(t, [float(x) for x in log.temp_c], strict=True)))
-    span = max(t) * 1.6
-    curve = [(x, fit.t_inf_c - (fit.t_inf_c - fit.t0_c) * math.exp(-x * 60.0 / fit.tau_s))
-             for x in [span * k / 80 for k in range(81)]]
-    hlines = []
-    measured = data.result.measured
-    if measured is not None and isinstance(measured.value, int | float):
-        hlines.append((f"predicted max {measured.value:.1f} °C", float(measured.value),
-                       charts.ORANGE))
-    limit = data.number("limit")
-    if limit is not None:
-        hlines.append((f"limit {limit:g} °C", limit, charts.RED))
+    ch = a.chart
+    hlines = [(f"predicted max {ch['predicted_max_c']:.1f} °C", float(ch["predicted_max_c"]),
+               charts.ORANGE),
+              (f"limit {ch['limit_c']:g} °C", float(ch["limit_c"]), charts.RED)]
     return (charts.temperature_curve(
-        [("logged", logged, charts.BLUE, True), ("fitted model", curve, charts.INK, False)],
-        hlines, "time [min]", "Heatsink soak at full output, enclosure closed"),
-        f"First-order fit (Incropera, lumped capacitance): T∞ {fit.t_inf_c:.1f} °C "
-        f"({fit.t_inf_ci_c[0]:.1f}–{fit.t_inf_ci_c[1]:.1f} °C, 95 %), τ {fit.tau_s / 60:.1f} "
-        "min; the predicted maximum is scaled to the worst ambient.")
+        [("logged", _thin(ch["logged"]), charts.BLUE, True),
+         ("fitted model", ch["model"], charts.INK, False)],
+        hlines, "time [min]", "Heatsink soak at full output, enclosure closed"), ch["caption"])
 
 
 def _float(value: Any) -> float | None:

@@ -106,7 +106,8 @@ def _write(reg, record: AnyRecord, files: dict[str, bytes], loaded: Loaded, impo
             host = e.host if v1 else (e.device or "")  # type: ignore[union-attr]
             reg.add_entry(job, e.item, e.action, e.raw, e.value, e.unit_typed,
                           serials.get(e.instrument or ""), by=by, at=e.at, uuid=e.uuid,
-                          host=host)
+                          host=host,
+                          read_with=getattr(e, "read_with", None))
     return restored
 
 

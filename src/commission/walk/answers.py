@@ -8,6 +8,7 @@ base loader, so ``yes``, ``no``, ``012`` and ``1:30`` stay text. Special forms::
     some.file: {file: captures/clamp.csv}     # relative to the answers file
     some.photo: {photo: photos/nameplate.jpg}
     some.reading: {text: "0.43 Ω", instrument: SERIAL}
+    some.file: {file: logs/soak.csv, instrument: SERIAL}   # read with SERIAL's profile
 
 Answers are applied in walk order through the same parser and checks as the
 interactive walk. Repeating the current answer adds nothing; a different one
@@ -121,7 +122,7 @@ def _apply_one(state: JobState, item, spec, base: Path, default_instrument: str 
     else:
         raise BadAnswer("an answer is text (or one of the special forms)")
     instrument = None
-    if instrument_serial and item.is_measured:
+    if instrument_serial and (item.is_measured or item.kind == "file"):
         instrument = state.reg.instrument_by_serial(instrument_serial)
     answer = parse_answer(item, text, base)
     return state.record(item, text, answer, instrument) is not None

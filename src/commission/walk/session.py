@@ -194,7 +194,10 @@ class Walk:
             except BadAnswer as exc:
                 self.term.say(f"  not recorded: {exc}")
                 continue
-            entry = self.state.record(item, text, answer, self.instrument)
+            read_with = None
+            if item.kind == "file" and answer.path is not None:
+                read_with = self._how_to_read(item, answer.path)
+            entry = self.state.record(item, text, answer, self.instrument, read_with)
             shown = answer.echo.startswith("read as") or item.kind in ("file", "photo")
             if answer.echo and shown:
                 self.term.say(f"  {answer.echo}")
@@ -204,6 +207,37 @@ class Walk:
                 self.answered += 1
             self._show_verdicts(item.id)
             return "next"
+
+    def _how_to_read(self, item, path) -> dict | None:
+        """The export profile to read this file with: the instrument's, or one the person
+        gives here when the file cannot be read as it is (the message names the columns
+        found; Enter records the file anyway and its check says why it cannot judge it)."""
+        from ..analyses import FILE_CHECKS, ReadSettings, SettingsError, probe
+        from ..captures import CaptureError
+
+        kind = FILE_CHECKS.get(item.check.name) if item.check is not None else None
+        if kind is None:
+            return None
+        profile = None
+        if self.instrument is not None:
+            profile = self.state.reg.export_profile_json(self.instrument.id)
+        while True:
+            try:
+                probe(kind, path, ReadSettings.from_json(profile), name=path.name)
+                return profile
+            except (CaptureError, SettingsError) as exc:
+                self.term.say(_wrap(f"  cannot read it as it is: {' '.join(str(exc).split())}",
+                                    "  "))
+            self.term.say(_wrap("  say how to read it, e.g. temp_c=T1,time_s=t (columns), "
+                                "tz=Europe/London, time_format=%d/%m/%Y %H:%M, rate_hz=10000; "
+                                "Enter records the file as it is", "  "))
+            given = self.term.ask("read as> ").strip()
+            if not given:
+                return profile
+            try:
+                profile = {**(profile or {}), **_read_options(given)}
+            except ValueError as exc:
+                self.term.say(f"  not understood: {exc}")
 
     def _hint(self, item) -> str:
         if item.kind == "confirm":
@@ -397,6 +431,27 @@ def _clip(line: str, keep: str = "") -> str:
     if len(line) <= WIDTH or (keep and len(line) - len(keep) > WIDTH):
         return line
     return line[: WIDTH - 1] + "…"
+
+
+_READ_KEYS = {"tz", "time_format", "rate_hz", "v_scale", "i_scale", "v_offset", "i_offset"}
+
+
+def _read_options(text: str) -> dict:
+    """``temp_c=T1,time_s=t,tz=Europe/Paris`` -> an export profile (columns and settings)."""
+    columns: dict[str, str] = {}
+    out: dict = {}
+    for part in text.split(","):
+        key, sep, value = (s.strip() for s in part.partition("="))
+        if not (sep and key and value):
+            raise ValueError(f"{part.strip()!r} is not NAME=VALUE")
+        if key in _READ_KEYS:
+            out[key] = float(value) if key in ("rate_hz", "v_scale", "i_scale", "v_offset",
+                                              "i_offset") else value
+        else:
+            columns[key] = value
+    if columns:
+        out["columns"] = columns
+    return out
 
 
 def _wrap(text: str, indent: str = "") -> str:

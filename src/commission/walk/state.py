@@ -116,20 +116,33 @@ class JobState:
         return entry
 
     def record(self, item: Item, raw: str, answer: Answer,
-               instrument: Instrument | None = None) -> Entry | None:
-        """Commit an answer; None when it repeats the current one exactly."""
+               instrument: Instrument | None = None,
+               read_with: dict | None = None) -> Entry | None:
+        """Commit an answer; None when it repeats the current one exactly.
+
+        A file taken with an instrument is read with that instrument's export profile,
+        which is stored with the entry (``read_with`` given here wins: the walk asks for
+        one when a file cannot be read as it is)."""
         raw = raw.strip()
-        instrument_id = instrument.id if instrument and item.is_measured else None
+        profile = (self.reg.export_profile_json(instrument.id)
+                   if instrument is not None and item.kind == "file" else None)
+        # a file is stamped with the instrument only when it is read with its profile
+        instrument_id = (instrument.id if instrument and (item.is_measured or profile)
+                         else None)
         value = answer.value
         if answer.path is not None:
             sha, size = self.reg.put_file(answer.path)
             value = {"sha256": sha, "name": answer.path.name, "bytes": size}
+        if item.kind == "file" and read_with is None:
+            read_with = profile
         now = self.current(item.id)
         if (now is not None and now.action == "answer" and now.raw == raw
-                and now.value == value and now.instrument_id == instrument_id):
+                and now.value == value and now.instrument_id == instrument_id
+                and now.read_with == (read_with or None)):
             return None
         return self._append(self.reg.add_entry(self.job, item.id, "answer", raw, value,
-                                               answer.unit_typed, instrument_id))
+                                               answer.unit_typed, instrument_id,
+                                               read_with=read_with or None))
 
     def mark(self, item: Item, action: str, reason: str) -> Entry | None:
         """Record a skip or an n/a with its reason; None if it repeats the current one."""

@@ -1,0 +1,167 @@
+"""One analysis per file: `analyse --json`, the checklist's check and the record's chart
+agree on every demo and test file.
+
+Each file goes (1) through `commission analyse KIND FILE --json` with its default options
+(plus the values the demo answers give: limits, ambient, volume, power, dead band, state),
+(2) through its item of the shipped checklist with the checklist's own parameters (the job
+is walked from the demo answers with the file in place), and (3) into the signed record's
+chart, read back with pdftotext (poppler, outside the project). Figures, verdicts and
+reasons must be identical, and the chart's caption must be the one the analysis gave.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+import shutil
+import subprocess
+from datetime import datetime, timedelta
+
+import numpy as np
+import pytest
+
+from conftest import DEMO, need_tool
+
+# The demo answers that parameterise each kind (see src/commission/demo/answers.yaml).
+POWER_W = 236.0 ** 2 / 18.9  # supply.voltage 236 V over element.cold_resistance 18.9 Ω
+OPTIONS = {
+    "clamp.capture": ("capture", ["--state", "full output, PV at zero"]),
+    "heatsink.soak_log": ("soak", ["--ambient-c", "24", "--worst-ambient-c", "38",
+                                   "--limit-c", "85"]),
+    "water.heat.log": ("heating", ["--volume-l", "150", "--power-w", repr(POWER_W),
+                                   "--element-position", "top entry",
+                                   "--fraction-above", "95 %"]),
+    "modes.regulation_log": ("regulation", ["--dead-band-w", "50"]),
+}
+DEMO_FILES = {
+    "clamp.capture": "files/clamp-capture.csv",
+    "heatsink.soak_log": "files/heatsink-soak.csv",
+    "water.heat.log": "files/heating-run.csv",
+    "modes.regulation_log": "files/regulation.csv",
+}
+
+
+def _test_files(folder):
+    """Files of other shapes: a part-output capture in ';'/decimal comma with units and
+    metadata, a two-constant soak, a saw-tooth heating log in °F and minutes, a regulation
+    log in kW with day-first timestamps."""
+    out = {}
+    rate, f = 10000.0, 50.0
+    t = np.arange(int(0.4 * rate)) / rate
+    th = 2 * np.pi * f * t
+    i = np.where(np.mod(th, np.pi) >= math.radians(100), 25.0 * np.sin(th), 0.0)
+    p = folder / "part.csv"
+    p.write_text("Logger;FE-2\nt [ms];U [V];I [A]\n" + "".join(
+        f"{a * 1000:.3f};{325 * math.sin(b):.3f};{c:.4f}\n".replace(".", ",")
+        for a, b, c in zip(t, th, i, strict=True)), encoding="utf-8")
+    out["clamp.capture"] = ("part.csv", p, "forced part output, PV at zero")
+    ts = np.arange(0.0, 70 * 60.0 + 1, 20.0)
+    rng = np.random.default_rng(11)
+    y = 24 + 30 * (1 - np.exp(-ts / 420)) + 12 * (1 - np.exp(-ts / 3000)) + rng.normal(0, .1,
+                                                                                       ts.size)
+    p = folder / "soak2.csv"
+    p.write_text("time_s,temp_c\n" + "".join(f"{a:.0f},{b:.3f}\n" for a, b in zip(ts, y,
+                                                                                    strict=True)))
+    out["heatsink.soak_log"] = ("soak2.csv", p, None)
+    th_ = np.arange(0, 160) * 0.5  # minutes
+    temp = 35 + np.minimum(th_, 60) * 0.29 - np.maximum(0, th_ - 60) * 0.05
+    p = folder / "heatF.csv"
+    p.write_text("Time [min],Tank [°F]\n" + "".join(
+        f"{a:.1f},{b * 9 / 5 + 32:.3f}\n" for a, b in zip(th_, temp, strict=True)))
+    out["water.heat.log"] = ("heatF.csv", p, None)
+    p = folder / "regkw.csv"
+    base = datetime(2024, 6, 13, 23, 50)  # day 13: the file shows it is day-first
+    rows = [f"{(base + timedelta(seconds=10 * k)).strftime('%d/%m/%Y %H:%M:%S')};"
+            + f"{0.01 * math.sin(k / 5):.4f}".replace(".", ",") for k in range(120)]
+    p.write_text("Zeit;Netz (kW)\n" + "\n".join(rows) + "\n")
+    out["modes.regulation_log"] = ("regkw.csv", p, None)
+    return out
+
+
+@pytest.fixture
+def walked(cli, new_job, tmp_path):
+    """Walk the demo answers with some files replaced; return the job's results."""
+    import re
+
+    text = (DEMO / "answers.yaml").read_text(encoding="utf-8")
+    for serial in sorted(set(re.findall(r"instrument: ([A-Z0-9-]+)", text))):
+        assert cli("instruments", "add", "--serial", serial, "--make", "K", "--model", "M",
+                   "--calibration-due", "2099-12-31").exit_code == 0
+    files = tmp_path / "files"
+    shutil.copytree(DEMO / "files", files)
+
+    def run(replace: dict[str, str]):
+        job = new_job(site="Larch House")
+        text = (DEMO / "answers.yaml").read_text(encoding="utf-8")
+        for old, new in replace.items():
+            assert old in text, old
+            text = text.replace(old, new)
+        answers = tmp_path / "answers.yaml"
+        answers.write_text(text, encoding="utf-8")
+        result = cli("walk", job, "--answers", answers)
+        assert result.exit_code == 0, result.stderr
+        from commission.cli.common import open_register
+        from commission.walk.state import JobState
+
+        reg = open_register(None, create=False)
+        state = JobState(reg, reg.find_job(job))
+        return job, {r.item.id: r for r in state.results()}
+
+    run.files = files
+    return run
+
+
+def _compare(cli, item_id, path, result, state=None):
+    kind, options = OPTIONS[item_id]
+    if state is not None:
+        options = ["--state", state]
+    out = cli("analyse", kind, str(path), *options, "--json")
+    assert out.exit_code == 0, out.stderr
+    data = json.loads(out.stdout)
+    a = result.analysis
+    assert a is not None, f"{item_id}: {result.reason}"
+    mine = a.as_json()
+    assert set(mine) <= set(data)
+    for key, value in mine.items():
+        assert data[key] == value, f"{item_id} {key}: analyse {data[key]!r} != check {value!r}"
+    assert result.verdict == data["verdict"]
+    assert result.reason.startswith(data["reason"])
+    return data
+
+
+def test_demo_files_agree_between_analyse_check_and_chart(cli, walked, tmp_path):
+    """The demo's four files: identical figures, verdicts and reasons from `analyse --json`
+    and the checklist's checks; the signed record prints the analyses' chart captions."""
+    job, results = walked({})
+    captions = []
+    for item_id, rel in DEMO_FILES.items():
+        data = _compare(cli, item_id, DEMO / rel, results[item_id])
+        if item_id != "modes.regulation_log":
+            captions.append(data["chart_caption"])
+    need_tool("pdftotext")
+    pdf = tmp_path / "r.pdf"
+    assert cli("report", job, "--out", pdf).exit_code == 0
+    text = " ".join(subprocess.run(["pdftotext", str(pdf), "-"], capture_output=True,
+                                   text=True, check=True).stdout.split())
+    for caption in captions:
+        assert " ".join(caption.split()) in text, caption
+
+
+def test_other_shaped_files_agree_between_analyse_and_check(cli, walked, tmp_path):
+    """Files in other shapes (units in headers, decimal commas, a two-constant soak, a
+    thermostat saw-tooth, day-first timestamps) agree the same way."""
+    files = _test_files(tmp_path)
+    replace = {}
+    for item_id, (_name, path, _state) in files.items():
+        replace[DEMO_FILES[item_id]] = str(path)
+    replace["clamp.capture.state: full output, PV at zero"] = \
+        "clamp.capture.state: forced part output, PV at zero"
+    _, results = walked(replace)
+    verdicts = {}
+    for item_id, (_name, path, state) in files.items():
+        verdicts[item_id] = _compare(cli, item_id, path, results[item_id], state)["verdict"]
+    # the part-output capture of a correct clamp passes; the two-constant soak heads for
+    # 24 + 42 = 66 °C, which at the demo's worst case (38 °C ambient, rise factor 1.2) is
+    # 38 + 1.2·42 = 88.4 °C, over the 85 °C limit even at the lower bound: fail
+    assert verdicts["clamp.capture"] == "pass"
+    assert verdicts["heatsink.soak_log"] == "fail"
