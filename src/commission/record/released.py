@@ -16,7 +16,7 @@ from __future__ import annotations
 from typing import Any
 
 # id -> version -> SHA-256 of every text shipped under that version (recovered with
-# `git log -p checklists/`; 1.3.0 and 1.5.0 were each shipped with two texts: edited
+# `git log -p checklists/`; 1.3.0 and 1.5.0 were each shipped with more than one text: edited
 # without a bump).
 RELEASED: dict[str, dict[str, tuple[str, ...]]] = {
     "diverter-1ph": {
@@ -27,7 +27,8 @@ RELEASED: dict[str, dict[str, tuple[str, ...]]] = {
                   "0475167728a10e9d0eed006a522aa8d9ee1707cd46aa3bb90128a14cd191e993"),
         "1.4.0": ("d571c6d3ad6a7034539031a7461ca0716c99bbfbafb674a2d00aefaabadc3128",),
         "1.5.0": ("816c4ff5875af9e6abfa4dda5e9e20ca4544c9f30cf66de8db237dc72b4d0334",
-                  "18e1bc169056a1eed8f477984a668157c34a63bacf4635d04e40f850e2fe0d72"),
+                  "18e1bc169056a1eed8f477984a668157c34a63bacf4635d04e40f850e2fe0d72",
+                  "3e6fa87a1e77efb5c582d5a2ac791ad5452ad38551c32b3753b09e5f4da904f2"),
         "1.6.0": ("595af612f4a537fb7dfbb5a951e09fafb5514de6fb0dec5a90dd2346963f862f",),
     },
     # A checklist that includes sections from another is hashed as a job stores it: the
