@@ -153,3 +153,4 @@ def _clip(text: str, width: int) -> str:
 
 def _section_title(r: Result) -> str:
     return f"{r.section_title or r.section}"
+

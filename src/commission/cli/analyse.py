@@ -151,7 +151,9 @@ class _Progress:
 
     def say(self, text: str) -> None:
         if self.on:
-            sys.stderr.write(f"\r{self.label + ': ' + text:<{WIDTH - 1}}")
+            room = WIDTH - 3 - len(text)  # a transient line: the file's name gives way
+            label = self.label if len(self.label) <= room else "…" + self.label[-(room - 1):]
+            sys.stderr.write(f"\r{label + ': ' + text:<{WIDTH - 1}}")
             sys.stderr.flush()
 
     def fraction(self, done: float) -> None:

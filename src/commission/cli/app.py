@@ -74,9 +74,34 @@ def _root(
 
 def main(argv: list[str] | None = None) -> int:
     """Entry point: bad input → one line on stderr and exit 2, never a traceback."""
+    debug = bool(os.environ.get("COMMISSION_DEBUG"))
+    streams = (sys.stdout, sys.stderr)
+    _fit_terminal()
+    try:
+        return _main(argv, debug)
+    finally:
+        for stream in (sys.stdout, sys.stderr):
+            stream.flush()
+        sys.stdout, sys.stderr = streams
+
+
+def _fit_terminal() -> None:
+    """On a terminal, every line fits 80 columns (see present.TerminalLines)."""
+    from ..terminal import TerminalLines
+
+    for name in ("stdout", "stderr"):
+        stream = getattr(sys, name)
+        try:
+            tty = stream.isatty()
+        except (AttributeError, ValueError):
+            tty = False
+        if tty:
+            setattr(sys, name, TerminalLines(stream))
+
+
+def _main(argv: list[str] | None, debug: bool) -> int:
     from ..errors import UserError
 
-    debug = bool(os.environ.get("COMMISSION_DEBUG"))
     try:
         app(args=argv, prog_name="commission")
     except SystemExit as exc:

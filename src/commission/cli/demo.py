@@ -109,8 +109,30 @@ def demo(
     typer.echo(f"verified here:  {'yes' if result.ok() else 'NO: ' + str(result.first_problem())}")
     typer.echo("")
     typer.echo("A reviewer checks the record with:")
-    typer.echo(f"  commission verify {pdf} --trust {ident.cert_file}")
+    typer.echo(_command(["commission", "verify", str(pdf), "--trust", str(ident.cert_file)]))
     typer.echo("and sees the job with:")
-    typer.echo(f"  COMMISSION_HOME={folder} commission show {job.short_id} --register {register}")
+    typer.echo(_command([f"COMMISSION_HOME={folder}", "commission", "show", job.short_id,
+                         "--register", str(register)]))
     if report.rejected or not result.ok():
         raise typer.Exit(2 if report.rejected else 1)
+
+
+def _command(words: list[str]) -> str:
+    """A command to copy, indented, within 80 columns: continued with a backslash where a
+    line would be longer (an option stays with its value)."""
+    import shlex
+
+    parts: list[str] = []
+    for word in map(shlex.quote, words):
+        if parts and parts[-1].startswith("--") and " " not in parts[-1]:
+            parts[-1] += f" {word}"
+        else:
+            parts.append(word)
+    lines, line = [], "  " + parts[0]
+    for part in parts[1:]:
+        if len(line) + 1 + len(part) + 2 > 80:
+            lines.append(line + " \\")
+            line = "      " + part
+        else:
+            line += " " + part
+    return "\n".join([*lines, line])
