@@ -71,3 +71,23 @@ def test_force_replaces_an_unsigned_file(cli, new_job, tmp_path):
     assert out.read_bytes() == b"not a pdf, written by hand"
     assert cli("report", job, "--out", out, "--force").exit_code == 0
     assert subprocess.run(["qpdf", "--check", str(out)], capture_output=True).returncode == 0
+
+
+def test_bounds_are_printed_as_typed_and_recorded_is_a_verdict(cli, new_job, tmp_path):
+    """Reference: pdftotext (poppler) reads the rendered record: the over-range reading and
+    OL appear as typed, and an unchecked answer shows the verdict 'recorded', not 'pass'."""
+    need_tool("pdftotext")
+    job = new_job()
+    answers = tmp_path / "a.yaml"
+    answers.write_text("insulation.resistance: '>299 MΩ'\nelement.cold_resistance: OL\n"
+                       "install.inverter: Brightwell SL-3600\n", encoding="utf-8")
+    assert cli("walk", job, "--answers", answers).exit_code == 0
+    out = tmp_path / "r.pdf"
+    assert cli("report", job, "--out", out).exit_code == 0
+    text = subprocess.run(["pdftotext", "-layout", str(out), "-"], capture_output=True,
+                          text=True).stdout
+    assert ">299 MΩ" in text
+    lines = [line for line in text.splitlines() if "Brightwell" in line]
+    assert any("recorded" in line and " pass " not in line for line in lines), lines
+    ol = [line for line in text.splitlines() if " OL " in f" {line} "]
+    assert any("fail" in line for line in ol), ol
