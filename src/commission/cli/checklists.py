@@ -61,6 +61,8 @@ def show(
             "items": [
                 {"id": i.id, "section": s.id, "kind": i.kind, "quantity": i.quantity,
                  "unit": i.unit, "critical": i.critical,
+                 "measured": i.is_measured if i.kind == "reading" else None,
+                 "aliases": i.aliases,
                  "check": i.check.name if i.check else None, "options": i.options,
                  "prompt": i.prompt, "when": i.when.model_dump(by_alias=True,
                                                                exclude_none=True)
@@ -77,11 +79,14 @@ def show(
         for i in section.items:
             mark = "!" if i.critical else " "
             kind = i.kind + (f" [{i.unit}]" if i.unit else "")
+            if i.kind == "reading" and not i.is_measured:
+                kind += " declared"
             extra = f" check {i.check.name}" if i.check else ""
             cond = f" (when {i.when.text()})" if i.when else ""
-            typer.echo(f" {mark}{i.id:<32} {kind:<16}{extra}{cond}"[:200])
+            typer.echo(f" {mark}{i.id:<32} {kind:<23}{extra}{cond}"[:200].rstrip())
     typer.echo("")
-    typer.echo("! = critical: must pass before the job is ready")
+    typer.echo("! = critical: must pass before the job is ready; declared = a reading from a")
+    typer.echo("nameplate, a setting or a size (no instrument is stamped on it)")
 
 
 @app.command()
