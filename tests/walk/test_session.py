@@ -142,3 +142,12 @@ def test_a_file_that_cannot_be_read_is_asked_how_to_read(state, tmp_path):
     result = next(r for r in state.results() if r.item.id == "water.heat.log")
     assert result.analysis is not None
     assert result.analysis.figures["rate_k_per_h"] == pytest.approx(18.0, rel=1e-6)
+
+
+def test_selecting_an_overdue_instrument_says_so_at_once(state):
+    """The calibration date is compared with today's date (datetime, outside the walk)."""
+    state.reg.add_instrument("OLD-7", "K", "CM", "2020-01-31")
+    term = Script([":use OLD-7", ":quit"])
+    Walk(state, term).run()
+    assert "warning: instrument OLD-7: calibration was due 2020-01-31" in term.text
+    assert state.reg.instrument_in_use(state.job).serial == "OLD-7"  # kept with the job
