@@ -63,6 +63,7 @@ def test_instruments(cli):
                        "calibration_due": "2027-12-31"}]
 
 
+@pytest.mark.slow
 def test_demo_runs_and_shows(cli, tmp_path):
     result = cli("demo", "--out", tmp_path / "demo")
     assert result.exit_code == 0, result.stderr

@@ -134,6 +134,7 @@ def _walk_to_status(child):
     return child.exitstatus
 
 
+@pytest.mark.slow
 def test_walk_in_colour_only_without_no_color(new_job, register_path):
     # The control: on a colour terminal the verdict words are coloured...
     job = new_job()

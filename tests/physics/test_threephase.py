@@ -73,6 +73,7 @@ def _capture(perm, orient, loads_w=(3000.0, 2000.0, 1000.0), u=(230.0, 230.0, 23
     return t, v, i_clamp
 
 
+@pytest.mark.slow
 @pytest.mark.parametrize(("perm", "orient"), COMBINATIONS,
                          ids=[f"{p}-{o}" for p, o in COMBINATIONS])
 @pytest.mark.parametrize("voltages", [3, 1], ids=["3V3I", "1V3I"])

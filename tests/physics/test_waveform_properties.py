@@ -9,10 +9,13 @@ current reverses P and turns the current fundamental by 180 deg.
 import math
 
 import numpy as np
+import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from commission.physics.waveform import analyse
+
+pytestmark = pytest.mark.slow  # hypothesis properties over many captures; CI runs them
 
 SQ2 = math.sqrt(2.0)
 _SETTINGS = settings(max_examples=25, deadline=None)

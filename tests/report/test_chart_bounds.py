@@ -89,6 +89,7 @@ def _data(path=None, value=None, inputs=None, params=None, expected=None, measur
     return ChartInput(result, value, path, inputs or {}, params or {})
 
 
+@pytest.mark.slow
 def test_analysis_files_charts_fit_their_frames(tmp_path):
     """Every heating log, soak log and capture the analysis tests write, drawn as the record
     draws it, keeps every mark in its frame."""

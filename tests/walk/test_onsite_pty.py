@@ -13,6 +13,7 @@ from datetime import date, timedelta
 from pathlib import Path
 
 import pexpect
+import pytest
 import yaml
 
 from conftest import DEMO
@@ -95,6 +96,7 @@ def test_a_new_user_on_site(cli, new_job, register_path):
                        "element.cold_resistance": "MFT-5521"}
 
 
+@pytest.mark.slow
 def test_goto_on_a_finished_walk_changes_an_answer_and_the_status_follows(cli, new_job,
                                                                            register_path,
                                                                            tmp_path):
@@ -150,6 +152,7 @@ def test_goto_on_a_finished_walk_changes_an_answer_and_the_status_follows(cli, n
     assert items["earth.zs"]["verdict"] == "pass" and items["earth.zs"]["status"] == "ready"
 
 
+@pytest.mark.slow
 def test_walk_item_option_opens_an_answered_item_and_a_section(cli, new_job, register_path,
                                                                tmp_path):
     job = new_job()

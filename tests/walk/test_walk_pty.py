@@ -157,6 +157,7 @@ def test_conditions_second_pass_and_end(cli, register_path):
     assert _item(data, "a.voltage")["verdict"] == "n/a"
 
 
+@pytest.mark.slow
 def test_na_refused_on_critical_item(cli, register_path):
     created = cli("new", "--checklist", HERE / "data" / "mini.yaml", "--site", "Mini")
     job = created.stdout.strip().splitlines()[-1]
