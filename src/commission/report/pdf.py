@@ -333,7 +333,7 @@ def _results(c: _Context) -> list:
            _p(SIGN_CONVENTION + " ! marks a critical item: it must pass before handover. "
               "'Figure' is what the check derived or predicted from the answer.",
               c.st["small"])]
-    widths = [118, 72, 48, 52, 50, 140]  # the verdict column holds "recorded" whole
+    widths = [118, 72, 48, 52, 40, 150]
     sections: dict[str, list[Result]] = {}
     for r in c.results:
         sections.setdefault(r.section, []).append(r)
