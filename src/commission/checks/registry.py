@@ -25,7 +25,10 @@ RECORDED = "recorded"
 # 2 = an answered item that no check judges is "recorded", no longer "pass"; an overdue
 #     instrument marks only the readings it took; a stated instrument accuracy applies the
 #     ILAC-G8 guard band (all landed before this constant).
-CHECK_LOGIC_VERSION = 2
+# 3 = recorded files judged through one analysis per kind: clamp verdict from the capture
+#     state and the angle residual, soak with one or two time constants, heating fitted
+#     on the first rising run; findings (clipping, gaps ...) turn pass into review.
+CHECK_LOGIC_VERSION = 3
 _SEVERITY = {PASS: 0, REVIEW: 1, FAIL: 2}
 
 

@@ -265,7 +265,9 @@ def _entries_agree(record: AnyRecord, checklist) -> None:
             if not e.raw.strip():
                 raise ContentFailure(f"{where}: a {e.action} needs its reason")
             continue
-        if e.instrument is not None and item.kind != "reading":
+        # readings are taken with an instrument, and so are files read through that
+        # instrument's export profile
+        if e.instrument is not None and item.kind not in ("reading", "file"):
             raise ContentFailure(f"{where}: an instrument on a {item.kind} item")
         _value_of_kind(where, item, e.value)
         if item.kind in ("file", "photo"):
@@ -309,19 +311,32 @@ def _entries_agree(record: AnyRecord, checklist) -> None:
         raise ContentFailure("verdicts: an item has two verdicts")
 
 
+def _finite(value: Any) -> bool:
+    return isinstance(value, int | float) and not isinstance(value, bool) \
+        and math.isfinite(value)
+
+
+def _reading_value(value: Any) -> bool:
+    """A reading is a number, or a bound as the instrument showed it: over its range
+    (``{"over": x}``, a lower bound) or an open circuit (``{"open": true}``)."""
+    if isinstance(value, dict):
+        return value == {"open": True} or (set(value) == {"over"} and _finite(value["over"]))
+    return _finite(value)
+
+
 def _value_of_kind(where: str, item, value: Any) -> None:
     kind = item.kind
     ok = {
         "confirm": isinstance(value, bool),
-        "reading": isinstance(value, int | float) and not isinstance(value, bool)
-        and math.isfinite(value),
+        "reading": _reading_value(value),
         "choice": isinstance(value, str) and value in (item.options or []),
         "text": isinstance(value, str),
         "file": isinstance(value, dict),
         "photo": isinstance(value, dict),
     }[kind]
     if not ok:
-        wanted = {"confirm": "true or false", "reading": "a finite number",
+        wanted = {"confirm": "true or false",
+                  "reading": "a finite number, {over: number} or {open: true}",
                   "choice": f"one of {', '.join(item.options or [])}", "text": "text",
                   "file": "a file (sha256, name, bytes)",
                   "photo": "a photo (sha256, name, bytes)"}[kind]

@@ -153,6 +153,9 @@ class FileMeta(_Strict):
 class Measured(_Strict):
     value: Scalar
     unit: Line | None
+    # a reading the instrument could only bound: "over" its range (value is a lower bound)
+    # or an "open" circuit
+    bound: Literal["over", "open"] | None = None
 
 
 class Expected(_Strict):
