@@ -566,9 +566,15 @@ def render(state: JobState, results: list[Result], record_sha: str, form: dict[s
     c = _Context(state, results, record_sha, form, generated_at, st, signer, extract_of)
     job = state.job
     title = form.get("title", "Commissioning record")
+    page_of = "page {n} of {total}"
     if extract_of:
-        footer_left = (f"Job {job.short_id} · extract, not signed · signed record SHA-256 "
-                       f"{extract_of['record_sha256']}")
+        from ..i18n import translator
+
+        tr = translator(job.details.get("language")).gettext
+        title = tr("Extract for the homeowner")
+        page_of = tr("page {n} of {total}")
+        footer_left = tr("Job {job} · extract, not signed · signed record SHA-256 {sha}").format(
+            job=job.short_id, sha=extract_of["record_sha256"])
     else:
         footer_left = f"Job {job.short_id} · record SHA-256 {record_sha}"
 
@@ -592,7 +598,7 @@ def render(state: JobState, results: list[Result], record_sha: str, form: dict[s
                 self.setFillColorRGB(0.3, 0.35, 0.4)
                 self.drawString(12 * mm, 8 * mm, footer_left)
                 self.drawRightString(A4[0] - 12 * mm, 8 * mm,
-                                     f"page {self._pageNumber} of {total}")
+                                     page_of.format(n=self._pageNumber, total=total))
                 header = f"{title} · {job.details.get('site', '')}"
                 if len(header) > 100:
                     header = header[:99] + "…"
