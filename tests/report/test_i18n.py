@@ -57,8 +57,8 @@ def test_every_marked_message_is_translated():
 
 def test_french_homeowner_extract(cli, tmp_path, demo_record):
     need_tool("pdftotext")
-    from commission.report.verify import declared_hash
     from commission.report.signatures import open_pdf
+    from commission.report.verify import declared_hash
 
     home = demo_record.parent
     register = home / "register.sqlite3"

@@ -76,13 +76,11 @@ def _item(checklist, item_id: str):
 
 
 def render(loaded: Loaded) -> bytes:
-    from reportlab.lib.pagesizes import A4
-    from reportlab.lib.units import mm
-    from reportlab.platypus import SimpleDocTemplate, Spacer
-
     from xml.sax.saxutils import escape
 
-    from reportlab.platypus import Paragraph
+    from reportlab.lib.pagesizes import A4
+    from reportlab.lib.units import mm
+    from reportlab.platypus import Paragraph, SimpleDocTemplate, Spacer
 
     from .pdf import FONT, _p, _styles, _table, register_fonts
 
