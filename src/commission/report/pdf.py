@@ -227,7 +227,7 @@ def _status(c: _Context) -> list:
                       "set one with 'amend --next-inspection DATE').", c.st["base"]))
 
     out.append(_p("Signed by", c.st["h2"]))
-    out.append(_signer_block(c))
+    out += _signer_block(c)
     return out
 
 
@@ -235,7 +235,7 @@ def _group(hexdigest: str) -> str:
     return " ".join(hexdigest[k:k + 4] for k in range(0, len(hexdigest), 4))
 
 
-def _signer_block(c: _Context):
+def _signer_block(c: _Context) -> list:
     d = c.state.job.details
     rows = [[_p(h, c.st["cellb"]) for h in ("Role", "Name", "Certificate (SHA-256)",
                                              "Signed")]]
@@ -243,7 +243,7 @@ def _signer_block(c: _Context):
         rows.append([_p("Installer", c.st["cell"]),
                      _p(f"{c.signer['name']}\n{c.signer.get('registration') or ''}".strip(),
                         c.st["cell"]),
-                     _p(_group(c.signer["fingerprint"]), c.st["cell"]),
+                     _p(_group(c.signer["fingerprint"][:16]) + " …", c.st["cell"]),
                      _p(f"digitally (PAdES), {c.when(c.generated_at)}; the signature "
                         "panel shows the signing time", c.st["cell"])])
     else:
@@ -254,7 +254,13 @@ def _signer_block(c: _Context):
                  _p("", c.st["cell"]),
                  _p("countersigns digitally, or by hand in the signature table",
                     c.st["cell"])])
-    return _table(rows, [80, 110, 170, 120], zebra=False)
+    out = [_table(rows, [80, 110, 170, 120], zebra=False)]
+    if c.signer:
+        # The whole fingerprint on its own full-width line, in reading order for any text
+        # extractor (a table cell would interleave with its neighbours).
+        out.append(_p(f"Installer's certificate fingerprint (SHA-256): "
+                      f"{_group(c.signer['fingerprint'])}", c.st["small"]))
+    return out
 
 
 def _summary(c: _Context) -> list:
@@ -329,7 +335,7 @@ def _results(c: _Context) -> list:
            _p(SIGN_CONVENTION + " ! marks a critical item: it must pass before handover. "
               "'Figure' is what the check derived or predicted from the answer.",
               c.st["small"])]
-    widths = [118, 72, 48, 52, 40, 150]
+    widths = [116, 70, 48, 50, 50, 146]
     sections: dict[str, list[Result]] = {}
     for r in c.results:
         sections.setdefault(r.section, []).append(r)
@@ -531,7 +537,7 @@ def _signatures(c: _Context) -> list:
     table = _table(rows, [110, 120, 80, 60, 110], zebra=False)
     table._argH = [None] + [34] * (len(rows) - 1)  # room to sign by hand
     return [KeepTogether([_p(c.heading("signatures", "Signatures"), c.st["h1"]),
-                          _signer_block(c), Spacer(1, 6), table, Spacer(1, 4),
+                          *_signer_block(c), Spacer(1, 6), table, Spacer(1, 4),
                           _p(note, c.st["small"])])]
 
 
