@@ -335,7 +335,7 @@ def _results(c: _Context) -> list:
            _p(SIGN_CONVENTION + " ! marks a critical item: it must pass before handover. "
               "'Figure' is what the check derived or predicted from the answer.",
               c.st["small"])]
-    widths = [116, 70, 48, 50, 50, 146]
+    widths = [104, 80, 46, 62, 48, 140]
     sections: dict[str, list[Result]] = {}
     for r in c.results:
         sections.setdefault(r.section, []).append(r)
@@ -464,7 +464,7 @@ def _files(c: _Context) -> list:
 
 
 def _photos(c: _Context) -> list:
-    from reportlab.platypus import Image, Table, TableStyle
+    from reportlab.platypus import Image, KeepTogether, Table, TableStyle
 
     cells = []
     for r, value in _recorded_files(c):
@@ -484,13 +484,17 @@ def _photos(c: _Context) -> list:
         cells.append([caption, img])
     if not cells:
         return []
-    grid = [cells[k:k + 2] + ([[]] if len(cells[k:k + 2]) == 1 else [])
-            for k in range(0, len(cells), 2)]
-    table = Table(grid, colWidths=[240, 240], splitInRow=0)
-    table.setStyle(TableStyle([("VALIGN", (0, 0), (-1, -1), "TOP"),
-                               ("FONT", (0, 0), (-1, -1), FONT, 8),
-                               ("BOTTOMPADDING", (0, 0), (-1, -1), 8)]))
-    return [_p(c.heading("photos", "Photos"), c.st["h1"]), table]
+    rows = []  # two photos a row, one table a row, so the page fills before a break
+    for k in range(0, len(cells), 2):
+        pair = cells[k:k + 2] + ([[]] if len(cells[k:k + 2]) == 1 else [])
+        row = Table([pair], colWidths=[240, 240])
+        row.setStyle(TableStyle([("VALIGN", (0, 0), (-1, -1), "TOP"),
+                                 ("FONT", (0, 0), (-1, -1), FONT, 8),
+                                 ("BOTTOMPADDING", (0, 0), (-1, -1), 8)]))
+        rows.append(row)
+    # the heading travels with the first row: never left alone at the foot of a page
+    return [KeepTogether([_p(c.heading("photos", "Photos"), c.st["h1"]), rows[0]]),
+            *rows[1:]]
 
 
 def _cautions(c: _Context) -> list:
@@ -542,12 +546,16 @@ def _signatures(c: _Context) -> list:
 
 
 def _charts(c: _Context) -> list:
+    from reportlab.platypus import KeepTogether
+
     from .chartdata import chart_flowables
 
     flow = chart_flowables(c)
     if not flow:
         return []
-    return [_p(c.heading("charts", "Measurements in pictures"), c.st["h1"]), *flow]
+    # the heading travels with the first chart: never left alone at the foot of a page
+    return [KeepTogether([_p(c.heading("charts", "Measurements in pictures"), c.st["h1"]),
+                          flow[0]]), *flow[1:]]
 
 
 _BUILDERS = {"status": _status, "summary": _summary, "instruments": _instruments,
