@@ -64,6 +64,11 @@ def _styles():
         "h1": ParagraphStyle("h1", parent=base, fontName=BOLD, fontSize=12, leading=15,
                              spaceBefore=10, spaceAfter=5, keepWithNext=1,
                              textColor=colors.HexColor("#1f5f99")),
+        # a heading already held together with what follows it (no keepWithNext of its own)
+        "h1k": ParagraphStyle("h1k", fontName=BOLD, fontSize=12, leading=15, spaceBefore=10,
+                              spaceAfter=5, textColor=colors.HexColor("#1f5f99")),
+        "h2k": ParagraphStyle("h2k", fontName=BOLD, fontSize=9.5, leading=12, spaceBefore=7,
+                              spaceAfter=3),
         "h2": ParagraphStyle("h2", parent=base, fontName=BOLD, fontSize=9.5, leading=12,
                              spaceBefore=7, spaceAfter=3, keepWithNext=1),
         "plain": ParagraphStyle("plain", parent=base, fontSize=10.5, leading=14.5,
@@ -479,7 +484,7 @@ def _photos(c: _Context) -> list:
         except Exception:  # noqa: BLE001 — a photo reportlab cannot read is listed, not fatal
             cells.append([caption, _p("(cannot be shown)", c.st["small"])])
             continue
-        scale = min(225 / img.imageWidth, 170 / img.imageHeight)
+        scale = min(225 / img.imageWidth, 140 / img.imageHeight)
         img.drawWidth, img.drawHeight = img.imageWidth * scale, img.imageHeight * scale
         cells.append([caption, img])
     if not cells:
@@ -493,7 +498,7 @@ def _photos(c: _Context) -> list:
                                  ("BOTTOMPADDING", (0, 0), (-1, -1), 8)]))
         rows.append(row)
     # the heading travels with the first row: never left alone at the foot of a page
-    return [KeepTogether([_p(c.heading("photos", "Photos"), c.st["h1"]), rows[0]]),
+    return [KeepTogether([_p(c.heading("photos", "Photos"), c.st["h1k"]), rows[0]]),
             *rows[1:]]
 
 
@@ -554,8 +559,9 @@ def _charts(c: _Context) -> list:
     if not flow:
         return []
     # the heading travels with the first chart: never left alone at the foot of a page
-    return [KeepTogether([_p(c.heading("charts", "Measurements in pictures"), c.st["h1"]),
-                          flow[0]]), *flow[1:]]
+    first = list(getattr(flow[0], "_content", [flow[0]]))  # one group, not nested ones
+    return [KeepTogether([_p(c.heading("charts", "Measurements in pictures"), c.st["h1k"]),
+                          *first]), *flow[1:]]
 
 
 _BUILDERS = {"status": _status, "summary": _summary, "instruments": _instruments,
