@@ -340,7 +340,7 @@ def _results(c: _Context) -> list:
            _p(SIGN_CONVENTION + " ! marks a critical item: it must pass before handover. "
               "'Figure' is what the check derived or predicted from the answer.",
               c.st["small"])]
-    widths = [104, 80, 46, 62, 48, 140]
+    widths = [124, 78, 44, 58, 46, 130]
     sections: dict[str, list[Result]] = {}
     for r in c.results:
         sections.setdefault(r.section, []).append(r)
