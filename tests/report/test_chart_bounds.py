@@ -201,3 +201,20 @@ def test_every_chart_is_keyed_by_a_registered_check(check):
 
 def test_demo_files_exist():
     assert (DEMO / "files" / "heatsink-soak.csv").is_file()
+
+
+def test_the_bounds_check_sees_a_mark_outside(tmp_path):
+    """Negative control: a line drawn past its frame is caught."""
+    import pytest as _pytest
+    from reportlab.graphics import renderPDF
+    from reportlab.graphics.shapes import Drawing, Line, Rect
+
+    from commission.report import charts
+
+    d = Drawing(200, 100)
+    d.add(Rect(10, 10, 100, 50, fillColor=None, strokeColor=charts.FRAME))
+    d.add(Line(20, 20, 150, 30, strokeColor=charts.BLUE))  # runs past the right edge
+    out = tmp_path / "bad.pdf"
+    renderPDF.drawToFile(d, str(out))
+    with _pytest.raises(AssertionError, match="outside every plot frame"):
+        _check_pdf(out)

@@ -233,3 +233,18 @@ def test_forms_validate_show_schema(cli, tmp_path):
     schema = json.loads(cli("forms", "schema").stdout)
     assert schema["$schema"].startswith("https://json-schema.org/")
     assert "homeowner" in json.dumps(schema["properties"]["sections"])
+
+
+def test_no_text_below_8_pt(demo_record, cli, tmp_path):
+    """pdfplumber's character sizes on every page of the demo record and the paper form."""
+    import pdfplumber
+
+    blank = tmp_path / "blank.pdf"
+    assert cli("blank", "diverter-1ph", "--out", blank).exit_code == 0
+    for path in (demo_record, blank):
+        with pdfplumber.open(path) as pdf:
+            sizes = [(round(ch["size"], 2), page.page_number, ch["text"])
+                     for page in pdf.pages for ch in page.chars]
+        assert sizes
+        small = [s for s in sizes if s[0] < 7.95]
+        assert small == [], f"{path.name}: {small[:5]}"

@@ -68,9 +68,17 @@ def report(
     passphrase_file: Annotated[
         Path | None, typer.Option(help="File holding the key passphrase (for scripts).")
     ] = None,
+    homeowner_only: Annotated[
+        bool, typer.Option(help="Only the homeowner's pages, in the job's language: an "
+                           "unsigned extract naming the signed record given by --record.")
+    ] = False,
+    record: Annotated[
+        Path | None, typer.Option(help="The signed record the homeowner extract names.")
+    ] = None,
     register: RegisterOpt = None,
 ) -> None:
     """Write the handover record: results, charts, cautions, homeowner page, signatures."""
+    from ..errors import UserError
     from ..report.build import make
     from ..report.pdf import load_form
     from ..resources import resolve
@@ -79,6 +87,30 @@ def report(
     form_data = load_form(resolve("forms", form))
     if out.exists() and not force:
         _check_out(out, force, sign)  # refuses before any passphrase is asked
+    if homeowner_only:
+        from ..report.build import homeowner_extract
+
+        if sign:
+            raise UserError("--homeowner-only: the extract is never signed; the signed "
+                            "record it names is the authority (drop --sign)")
+        if record is None:
+            raise UserError("--homeowner-only: give --record SIGNED.pdf, the signed record "
+                            "whose SHA-256 the extract names")
+        try:
+            signed = record.read_bytes()
+        except OSError as exc:
+            raise UserError(f"{record}: cannot read ({exc.strerror})") from None
+        with open_register(register, create=False) as reg:
+            state = JobState(reg, reg.find_job(job))
+            pdf = homeowner_extract(state, form_data, signed)
+            state.files.close()
+        _check_out(out, force, sign=False)
+        _write(out, pdf)
+        typer.echo(f"homeowner extract written: {out} ({len(pdf)} bytes, unsigned, language "
+                   f"{state.job.details.get('language') or 'en'})")
+        return
+    if record is not None:
+        raise UserError("--record: only with --homeowner-only")
     passphrase = None
     if sign:
         from ..report.identity import load_identity, passphrase_from

@@ -98,10 +98,16 @@ def homeowner_extract(state: JobState, form: dict[str, Any], signed: bytes) -> b
 
     from ..errors import UserError
     from .pdf import render
-    from .signatures import open_pdf
+    from .signatures import NotAPdf, open_pdf
     from .verify import declared_hash
 
-    reader, _ = open_pdf(signed)
+    try:
+        reader, _ = open_pdf(signed)
+    except NotAPdf as exc:
+        raise UserError(f"--record: {exc}") from None
+    if not reader.embedded_signatures:
+        raise UserError("--record: that record is not signed; the extract names a signed "
+                        "record (make it with 'report --sign')")
     record_sha = declared_hash(reader)
     if not record_sha:
         raise UserError("--record: not a record made by commission (no record hash in it)")

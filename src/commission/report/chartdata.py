@@ -91,7 +91,7 @@ def chart_flowables(c) -> list[Any]:
         drawing, caption = drawn
         out.append(KeepTogether([
             Paragraph(f"{result.item.prompt} <font size=8 color='#55606b'>"
-                      f"({result.item.id})</font>", c.st["h2"]),
+                      f"({result.item.id})</font>", c.st["h2k"]),
             drawing, Paragraph(caption, c.st["small"]), Spacer(1, 8)]))
     return out
 

@@ -32,10 +32,10 @@ GRID = colors.HexColor("#e3e7eb")
 WIDTH, HEIGHT = 470, 170
 
 
-def nice_range(values: Sequence[float], margin: float = 0.06, floor_zero: bool = False
+def nice_range(values: Sequence[float], margin: float = 0.04, floor_zero: bool = False
                ) -> tuple[float, float, float]:
-    """Axis minimum, maximum and tick step covering ``values`` with a margin each side,
-    on round numbers (1, 2, 2.5 or 5 times a power of ten)."""
+    """Axis minimum, maximum and tick step covering ``values`` with a margin each side;
+    ticks fall on round numbers (1, 2, 2.5 or 5 times a power of ten), the ends need not."""
     finite = [float(v) for v in values if math.isfinite(float(v))]
     lo, hi = (min(finite), max(finite)) if finite else (0.0, 1.0)
     if floor_zero:
@@ -47,10 +47,10 @@ def nice_range(values: Sequence[float], margin: float = 0.06, floor_zero: bool =
     if not (floor_zero and lo == 0.0):
         lo -= span * margin
     hi += span * margin
-    raw = (hi - lo) / 5
+    raw = (hi - lo) / 6
     power = 10 ** math.floor(math.log10(raw))
     step = next(m * power for m in (1, 2, 2.5, 5, 10) if m * power >= raw)
-    return math.floor(lo / step) * step, math.ceil(hi / step) * step, step
+    return lo, hi, step
 
 
 def _drawing(width: float, height: float) -> Drawing:
@@ -82,13 +82,13 @@ def _ranges(lp: LinePlot, xs: Sequence[float], ys: Sequence[float],
     if x_exact:
         lo, hi = min(xs), max(xs)
         step = nice_range([lo, hi], margin=0)[2]
-        lp.xValueAxis.valueMin, lp.xValueAxis.valueMax = lo, hi
-        lp.xValueAxis.valueSteps = [x for x in _ticks(lo, hi, step)]
     else:
         lo, hi, step = nice_range(xs)
-        lp.xValueAxis.valueMin, lp.xValueAxis.valueMax, lp.xValueAxis.valueStep = lo, hi, step
+    lp.xValueAxis.valueMin, lp.xValueAxis.valueMax = lo, hi
+    lp.xValueAxis.valueSteps = _ticks(lo, hi, step)
     lo, hi, step = nice_range(ys)
-    lp.yValueAxis.valueMin, lp.yValueAxis.valueMax, lp.yValueAxis.valueStep = lo, hi, step
+    lp.yValueAxis.valueMin, lp.yValueAxis.valueMax = lo, hi
+    lp.yValueAxis.valueSteps = _ticks(lo, hi, step)
 
 
 def _ticks(lo: float, hi: float, step: float) -> list[float]:
@@ -140,7 +140,8 @@ def harmonics(orders: Sequence[int], currents: Sequence[float], limits: Sequence
     bc.bars[1].fillColor = LIGHT
     bc.bars.strokeColor = None
     lo, hi, step = nice_range([*currents, *limits], floor_zero=True)
-    bc.valueAxis.valueMin, bc.valueAxis.valueMax, bc.valueAxis.valueStep = 0, hi, step
+    bc.valueAxis.valueMin, bc.valueAxis.valueMax = 0, hi
+    bc.valueAxis.valueSteps = _ticks(0, hi, step)
     bc.valueAxis.visibleGrid = True
     bc.valueAxis.gridStrokeColor = GRID
     for axis in (bc.categoryAxis, bc.valueAxis):
@@ -179,8 +180,9 @@ def temperature_curve(series: list[tuple[str, Sequence[tuple[float, float]], obj
         else:
             lp.lines[n].strokeColor = colour
             lp.lines[n].strokeWidth = 1.2
-            if colour is GREY:
-                lp.lines[n].strokeDashArray = [4, 2]
+            if colour is GREY:  # expected: dashed and drawn last, visible over a fit
+                lp.lines[n].strokeDashArray = [5, 3]
+                lp.lines[n].strokeWidth = 1.6
     d.add(lp)
     _frame(d, lp.x, lp.y, lp.width, lp.height)
     span = lp.yValueAxis.valueMax - lp.yValueAxis.valueMin
@@ -189,11 +191,11 @@ def temperature_curve(series: list[tuple[str, Sequence[tuple[float, float]], obj
         d.add(Line(lp.x, yy, lp.x + lp.width, yy, strokeColor=colour, strokeWidth=0.8,
                    strokeDashArray=[3, 2]))
         _label(d, lp.x + lp.width + 4, yy - 3, label, colour=colour)
-    legend_y = HEIGHT + 4
+    legend_x = 130.0  # the legend names only the series drawn, in a row above the plot
     for label, _, colour, dots in drawn:
-        _label(d, lp.x + lp.width + 4, legend_y, ("• " if dots else "— ") + label,
-               colour=colour)
-        legend_y -= 11
+        text = ("• " if dots else "— ") + label
+        _label(d, legend_x, HEIGHT + 12, text, colour=colour)
+        legend_x += 12 + 4.6 * len(text)
     _label(d, 2, HEIGHT + 28, title)
     _label(d, 2, HEIGHT + 12, "temperature [°C]")
     _label(d, lp.x + lp.width / 2, 10, x_label, anchor="middle")

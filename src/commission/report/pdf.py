@@ -64,6 +64,11 @@ def _styles():
         "h1": ParagraphStyle("h1", parent=base, fontName=BOLD, fontSize=12, leading=15,
                              spaceBefore=10, spaceAfter=5, keepWithNext=1,
                              textColor=colors.HexColor("#1f5f99")),
+        # a heading already held together with what follows it (no keepWithNext of its own)
+        "h1k": ParagraphStyle("h1k", fontName=BOLD, fontSize=12, leading=15, spaceBefore=10,
+                              spaceAfter=5, textColor=colors.HexColor("#1f5f99")),
+        "h2k": ParagraphStyle("h2k", fontName=BOLD, fontSize=9.5, leading=12, spaceBefore=7,
+                              spaceAfter=3),
         "h2": ParagraphStyle("h2", parent=base, fontName=BOLD, fontSize=9.5, leading=12,
                              spaceBefore=7, spaceAfter=3, keepWithNext=1),
         "plain": ParagraphStyle("plain", parent=base, fontSize=10.5, leading=14.5,
@@ -231,7 +236,7 @@ def _status(c: _Context) -> list:
                       "set one with 'amend --next-inspection DATE').", c.st["base"]))
 
     out.append(_p("Signed by", c.st["h2"]))
-    out.append(_signer_block(c))
+    out += _signer_block(c)
     return out
 
 
@@ -239,7 +244,7 @@ def _group(hexdigest: str) -> str:
     return " ".join(hexdigest[k:k + 4] for k in range(0, len(hexdigest), 4))
 
 
-def _signer_block(c: _Context):
+def _signer_block(c: _Context) -> list:
     d = c.state.job.details
     rows = [[_p(h, c.st["cellb"]) for h in ("Role", "Name", "Certificate (SHA-256)",
                                              "Signed")]]
@@ -247,7 +252,7 @@ def _signer_block(c: _Context):
         rows.append([_p("Installer", c.st["cell"]),
                      _p(f"{c.signer['name']}\n{c.signer.get('registration') or ''}".strip(),
                         c.st["cell"]),
-                     _p(_group(c.signer["fingerprint"]), c.st["cell"]),
+                     _p(_group(c.signer["fingerprint"][:16]) + " …", c.st["cell"]),
                      _p(f"digitally (PAdES), {c.when(c.generated_at)}; the signature "
                         "panel shows the signing time", c.st["cell"])])
     else:
@@ -258,7 +263,13 @@ def _signer_block(c: _Context):
                  _p("", c.st["cell"]),
                  _p("countersigns digitally, or by hand in the signature table",
                     c.st["cell"])])
-    return _table(rows, [80, 110, 170, 120], zebra=False)
+    out = [_table(rows, [80, 110, 170, 120], zebra=False)]
+    if c.signer:
+        # The whole fingerprint on its own full-width line, in reading order for any text
+        # extractor (a table cell would interleave with its neighbours).
+        out.append(_p(f"Installer's certificate fingerprint (SHA-256): "
+                      f"{_group(c.signer['fingerprint'])}", c.st["small"]))
+    return out
 
 
 def _summary(c: _Context) -> list:
@@ -333,7 +344,7 @@ def _results(c: _Context) -> list:
            _p(SIGN_CONVENTION + " ! marks a critical item: it must pass before handover. "
               "'Figure' is what the check derived or predicted from the answer.",
               c.st["small"])]
-    widths = [118, 72, 48, 52, 40, 150]
+    widths = [124, 78, 44, 58, 46, 130]
     sections: dict[str, list[Result]] = {}
     for r in c.results:
         sections.setdefault(r.section, []).append(r)
@@ -462,7 +473,7 @@ def _files(c: _Context) -> list:
 
 
 def _photos(c: _Context) -> list:
-    from reportlab.platypus import Image, Table, TableStyle
+    from reportlab.platypus import Image, KeepTogether, Table, TableStyle
 
     cells = []
     for r, value in _recorded_files(c):
@@ -477,18 +488,22 @@ def _photos(c: _Context) -> list:
         except Exception:  # noqa: BLE001 — a photo reportlab cannot read is listed, not fatal
             cells.append([caption, _p("(cannot be shown)", c.st["small"])])
             continue
-        scale = min(225 / img.imageWidth, 170 / img.imageHeight)
+        scale = min(225 / img.imageWidth, 140 / img.imageHeight)
         img.drawWidth, img.drawHeight = img.imageWidth * scale, img.imageHeight * scale
         cells.append([caption, img])
     if not cells:
         return []
-    grid = [cells[k:k + 2] + ([[]] if len(cells[k:k + 2]) == 1 else [])
-            for k in range(0, len(cells), 2)]
-    table = Table(grid, colWidths=[240, 240], splitInRow=0)
-    table.setStyle(TableStyle([("VALIGN", (0, 0), (-1, -1), "TOP"),
-                               ("FONT", (0, 0), (-1, -1), FONT, 8),
-                               ("BOTTOMPADDING", (0, 0), (-1, -1), 8)]))
-    return [_p(c.heading("photos", "Photos"), c.st["h1"]), table]
+    rows = []  # two photos a row, one table a row, so the page fills before a break
+    for k in range(0, len(cells), 2):
+        pair = cells[k:k + 2] + ([[]] if len(cells[k:k + 2]) == 1 else [])
+        row = Table([pair], colWidths=[240, 240])
+        row.setStyle(TableStyle([("VALIGN", (0, 0), (-1, -1), "TOP"),
+                                 ("FONT", (0, 0), (-1, -1), FONT, 8),
+                                 ("BOTTOMPADDING", (0, 0), (-1, -1), 8)]))
+        rows.append(row)
+    # the heading travels with the first row: never left alone at the foot of a page
+    return [KeepTogether([_p(c.heading("photos", "Photos"), c.st["h1k"]), rows[0]]),
+            *rows[1:]]
 
 
 def _cautions(c: _Context) -> list:
@@ -535,17 +550,22 @@ def _signatures(c: _Context) -> list:
     table = _table(rows, [110, 120, 80, 60, 110], zebra=False)
     table._argH = [None] + [34] * (len(rows) - 1)  # room to sign by hand
     return [KeepTogether([_p(c.heading("signatures", "Signatures"), c.st["h1"]),
-                          _signer_block(c), Spacer(1, 6), table, Spacer(1, 4),
+                          *_signer_block(c), Spacer(1, 6), table, Spacer(1, 4),
                           _p(note, c.st["small"])])]
 
 
 def _charts(c: _Context) -> list:
+    from reportlab.platypus import KeepTogether
+
     from .chartdata import chart_flowables
 
     flow = chart_flowables(c)
     if not flow:
         return []
-    return [_p(c.heading("charts", "Measurements in pictures"), c.st["h1"]), *flow]
+    # the heading travels with the first chart: never left alone at the foot of a page
+    first = list(getattr(flow[0], "_content", [flow[0]]))  # one group, not nested ones
+    return [KeepTogether([_p(c.heading("charts", "Measurements in pictures"), c.st["h1k"]),
+                          *first]), *flow[1:]]
 
 
 _BUILDERS = {"status": _status, "summary": _summary, "instruments": _instruments,
@@ -570,9 +590,15 @@ def render(state: JobState, results: list[Result], record_sha: str, form: dict[s
     c = _Context(state, results, record_sha, form, generated_at, st, signer, extract_of)
     job = state.job
     title = form.get("title", "Commissioning record")
+    page_of = "page {n} of {total}"
     if extract_of:
-        footer_left = (f"Job {job.short_id} · extract, not signed · signed record SHA-256 "
-                       f"{extract_of['record_sha256']}")
+        from ..i18n import translator
+
+        tr = translator(job.details.get("language")).gettext
+        title = tr("Extract for the homeowner")
+        page_of = tr("page {n} of {total}")
+        footer_left = tr("Job {job} · extract, not signed · signed record SHA-256 {sha}").format(
+            job=job.short_id, sha=extract_of["record_sha256"])
     else:
         footer_left = f"Job {job.short_id} · record SHA-256 {record_sha}"
 
@@ -596,7 +622,7 @@ def render(state: JobState, results: list[Result], record_sha: str, form: dict[s
                 self.setFillColorRGB(0.3, 0.35, 0.4)
                 self.drawString(12 * mm, 8 * mm, footer_left)
                 self.drawRightString(A4[0] - 12 * mm, 8 * mm,
-                                     f"page {self._pageNumber} of {total}")
+                                     page_of.format(n=self._pageNumber, total=total))
                 header = f"{title} · {job.details.get('site', '')}"
                 if len(header) > 100:
                     header = header[:99] + "…"
