@@ -121,3 +121,25 @@ def test_broken_three_phase_files_are_one_line(cli, tmp_path, body, needle):
     assert result.exit_code == 2, result.stdout
     assert needle in result.stderr and "Traceback" not in result.stderr
     assert len(result.stderr.strip().splitlines()) == 1
+
+
+def test_reader_layer_decimal_comma_units_and_mapping(cli, tmp_path):
+    """Semicolons, decimal commas, a metadata line, units in the headers (currents in mA)
+    and a --columns mapping: the same P = U²/R per phase as the plain file."""
+    plain = _write(tmp_path / "plain.csv")
+    rows = plain.read_text().splitlines()
+    out = ["# logger LX-3, site test", "t [s];UL1 [V];UL2 [V];UL3 [V];IA [mA];IB [mA];IC [mA]"]
+    for line in rows[1:]:
+        x = [float(v) for v in line.split(",")]
+        vals = x[:4] + [1000 * c for c in x[4:]]
+        out.append(";".join(f"{v:.6f}".replace(".", ",") for v in vals))
+    f = tmp_path / "logger.csv"
+    f.write_text("\n".join(out) + "\n")
+    result = cli("analyse", "capture", str(f), "--json", "--columns",
+                 "time_s=t [s],voltage_l1_v=UL1 [V],voltage_l2_v=UL2 [V],voltage_l3_v=UL3 [V],"
+                 "current_1_a=IA [mA],current_2_a=IB [mA],current_3_a=IC [mA]")
+    assert result.exit_code == 0, result.stderr
+    data = json.loads(result.stdout)
+    want = [230.0**2 / r for r in (17.6, 26.45, 52.9)]
+    for row, w in zip(data["phases"], want, strict=True):
+        assert row["p_w"] == pytest.approx(w, rel=1e-3)

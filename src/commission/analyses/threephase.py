@@ -183,7 +183,8 @@ def analyse_threephase_capture(path, *, load: str = "all", expect: str = "import
     from ..captures.threephase_csv import read_threephase_capture_csv
 
     label = name or os.path.basename(os.fspath(path))
-    cap = read_threephase_capture_csv(path, sample_rate_hz=sample_rate_hz, columns=columns)
+    cap = read_threephase_capture_csv(path, sample_rate_hz=sample_rate_hz, columns=columns,
+                                       name=label)
     try:
         return analyse_samples(cap.sample_rate_hz, cap.voltages_v, cap.currents_a,
                                neutral_a=cap.neutral_a, name=label, load=load, expect=expect,

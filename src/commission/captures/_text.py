@@ -234,6 +234,10 @@ CANONICAL = {
     "ambient_c": "degC",
     "grid_w": "W",
     "diverter_w": "W",
+    # three-phase captures and logs (captures/threephase_csv.py)
+    "voltage_l1_v": "V", "voltage_l2_v": "V", "voltage_l3_v": "V",
+    "current_1_a": "A", "current_2_a": "A", "current_3_a": "A", "current_n_a": "A",
+    "grid_l1_w": "W", "grid_l2_w": "W", "grid_l3_w": "W",
 }
 _UNIT_IN_BRACKETS = re.compile(r"^(.*?)\s*[\[(]\s*([^\])]+?)\s*[\])]\s*$")
 _UNIT_AFTER_SLASH = re.compile(r"^(.*?)\s*/\s*([A-Za-z°µ]+)$")
@@ -254,7 +258,11 @@ _DIMENSION_OF = {"s": "time", "ms": "time", "us": "time", "min": "time", "hour":
                  "degC": "temperature", "degF": "temperature", "kelvin": "temperature"}
 _ROLE_DIMENSION = {"time_s": "time", "voltage_v": "voltage", "current_a": "current",
                    "temp_c": "temperature", "ambient_c": "temperature", "grid_w": "power",
-                   "diverter_w": "power"}
+                   "diverter_w": "power",
+                   **{k: "voltage" for k in ("voltage_l1_v", "voltage_l2_v", "voltage_l3_v")},
+                   **{k: "current" for k in ("current_1_a", "current_2_a", "current_3_a",
+                                             "current_n_a")},
+                   **{k: "power" for k in ("grid_l1_w", "grid_l2_w", "grid_l3_w")}}
 
 
 def header_unit(name: str) -> tuple[str, str | None]:

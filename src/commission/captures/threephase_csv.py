@@ -66,7 +66,7 @@ class ThreePhaseCapture:
     warnings: tuple[str, ...]
 
 
-def read_threephase_capture_csv(path, *, sample_rate_hz=None, columns=None):
+def read_threephase_capture_csv(path, *, sample_rate_hz=None, columns=None, name=None):
     """Read a capture of one or three voltages and one to three currents from CSV.
 
     Parameters
@@ -75,7 +75,9 @@ def read_threephase_capture_csv(path, *, sample_rate_hz=None, columns=None):
     sample_rate_hz : float, optional
         Sampling rate [Hz]; a ``time_s`` column is then not needed.
     columns : dict, optional
-        Canonical name -> header name in the file.
+        Canonical name -> header name in the file (an export profile's mapping too).
+    name : str, optional
+        The file's name for messages, when ``path`` is a temporary copy.
 
     Returns
     -------
@@ -89,7 +91,7 @@ def read_threephase_capture_csv(path, *, sample_rate_hz=None, columns=None):
     """
     if sample_rate_hz is not None and not float(sample_rate_hz) > 0:
         raise CaptureError(f"sample rate must be positive, got {sample_rate_hz!r}")
-    table = read_table(path, expected=_EXPECTED)
+    table = read_table(path, expected=_EXPECTED, name=name)
     mapping = {_ALIASES.get(k, k): v for k, v in (columns or {}).items()}
     header = {n.lower() for n in table.names}
     for alias, canon in _ALIASES.items():
@@ -102,7 +104,8 @@ def read_threephase_capture_csv(path, *, sample_rate_hz=None, columns=None):
     optional = ("voltage_l2_v", "voltage_l3_v", "current_2_a", "current_3_a", NEUTRAL)
     found = resolve_columns(table, wanted, optional=optional, mapping=mapping,
                             alternatives=None if sample_rate_hz is not None
-                            else {"time_s": "a sample rate"})
+                            else {"time_s": "a sample rate"},
+                            example="voltage_l1_v=U1,current_1_a=I1")
     if ("voltage_l2_v" in found) != ("voltage_l3_v" in found):
         have = "voltage_l2_v" if "voltage_l2_v" in found else "voltage_l3_v"
         raise CaptureError(f"{table.source}: has {have} but not the other phase voltage; give "
@@ -118,7 +121,8 @@ def read_threephase_capture_csv(path, *, sample_rate_hz=None, columns=None):
         raise CaptureError(f"{table.source}: has a header but no data rows; expected one row "
                            f"per sample ({_EXPECTED})")
     first_nonfinite(table, [data[:, k] for k in range(len(keys))], names)
-    col = {k: found[k].convert(data[:, n]) for n, k in enumerate(keys)}
+    raw = {k: data[:, n] for n, k in enumerate(keys)}
+    col = {k: found[k].convert(v) for k, v in raw.items()}  # units in the header, by pint
     if sample_rate_hz is None:
         times = col["time_s"]
         steps = np.diff(times)
@@ -144,7 +148,7 @@ def read_threephase_capture_csv(path, *, sample_rate_hz=None, columns=None):
                            "current was captured; check the clamps, their channels and scales")
     check_two_cycles(table.source, rate, col["voltage_l1_v"], col["voltage_l1_v"].size)
     warnings = tuple(w for k in keys if k != "time_s"
-                     for w in [clipping_warning(table.source, shown[k], col[k])] if w)
+                     for w in [clipping_warning(table.source, shown[k], raw[k])] if w)
     return ThreePhaseCapture(
         source=table.source, sample_rate_hz=rate, start_time_s=start,
         voltages_v=tuple(col[k] for k in VOLTAGES if k in col),
@@ -184,7 +188,7 @@ class PhasePowerLog:
         return None
 
 
-def read_phase_power_log(path, *, columns=None):
+def read_phase_power_log(path, *, columns=None, name=None):
     """Read a regulation log with ``grid_l1_w``, ``grid_l2_w``, ``grid_l3_w`` and/or
     ``grid_w`` (the sum), and ``time_s`` or ``timestamp``.
 
@@ -196,14 +200,15 @@ def read_phase_power_log(path, *, columns=None):
     from commission.captures.logs import _find_time_and, _rows
 
     table = read_table(path, expected="time_s or timestamp, grid_l1_w grid_l2_w grid_l3_w "
-                       "and/or grid_w")
-    time_key, found = _find_time_and(table, (), (*PHASE_POWER, "grid_w"), columns)
+                       "and/or grid_w", name=name)
+    time_key, found = _find_time_and(table, (), (*PHASE_POWER, "grid_w"), columns,
+                                     "grid_l1_w=P1")
     if not any(k in found for k in (*PHASE_POWER, "grid_w")):
         shown = ", ".join(repr(n) for n in table.names)
         raise CaptureError(f"{table.source}: line {table.header_line}: no grid power column; "
                            f"the header has {shown}, expected grid_l1_w, grid_l2_w, grid_l3_w "
                            "(per phase) and/or grid_w (their sum)")
-    rows, _findings = _rows(table, found, time_key, "regulation", None, None)
+    rows, _ = _rows(table, found, time_key, "regulation", None, None)
     time_s, _ = rows.pop(time_key)
     phases = {f"L{n + 1}": rows[k] for n, k in enumerate(PHASE_POWER) if k in rows}
     return PhasePowerLog(table.source, time_s, phases, rows.get("grid_w"))

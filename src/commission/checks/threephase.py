@@ -393,6 +393,8 @@ def regulation_log_billed(ctx: Context) -> Outcome:
     else:
         raise ValueError(f"{log.source}: the diverter regulates {target} but the log has no "
                          f"grid_{target.lower()}_w column")
+    if not band > 0:
+        raise ValueError("the dead band must be greater than zero, e.g. 50 W")
     verdicts, parts, means = [], [], []
     for label, grid in series.items():
         stats = regulation.grid_statistics(log.time_s, grid)

@@ -344,26 +344,6 @@ def capture(
         settings = CaptureSettings(state=state_name, expect=expected)
         settings.direction()
     wav = looks_like_wav(file)
-    if load is not None and load.strip().lower() not in analyse_3ph.LOAD_WORDS:
-        raise UserError(f"--load: {load!r} is not accepted; give all, one or unknown")
-    if not wav and analyse_3ph.looks_three_phase(file):
-        for option, given in (("--v-scale", v_scale), ("--v-offset", v_offset),
-                              ("--i-scale", i_scale), ("--i-offset", i_offset),
-                              ("--channels", channels)):
-            if given is not None:
-                raise UserError(f"{option}: not available for three-phase captures; give the "
-                                "values in volts and amperes")
-        if windows:
-            raise UserError("--windows: not available for three-phase captures")
-        analyse_3ph.run(file, rate=_number(rate, "--rate", "the sample rate in hertz, e.g. "
-                                           "10000", positive=True),
-                        columns=_mapping(columns, analyse_3ph.COLUMNS_EXAMPLE),
-                        load=(load or "all").strip().lower(), expect=expected or "import",
-                        as_json=as_json)
-        return
-    if load is not None:
-        raise UserError(f"--load: applies to three-phase captures only; {file} has no "
-                        "per-phase columns (voltage_l1_v, current_1_a, ...)")
     if wav:
         for option, given in (("--rate", rate), ("--columns", columns),
                               ("--v-offset", v_offset), ("--i-offset", i_offset)):
@@ -392,6 +372,25 @@ def capture(
         v_offset=_number(v_offset, "--v-offset", hint),
         i_offset=_number(i_offset, "--i-offset", hint),
         channels=_channels(channels))
+    if load is not None and load.strip().lower() not in analyse_3ph.LOAD_WORDS:
+        raise UserError(f"--load: {load!r} is not accepted; give all, one or unknown")
+    if not wav and (analyse_3ph.looks_three_phase(file)
+                    or analyse_3ph.maps_three_phase(read.columns)):
+        for option, given in (("--v-scale", v_scale), ("--v-offset", v_offset),
+                              ("--i-scale", i_scale), ("--i-offset", i_offset)):
+            if given is not None:
+                raise UserError(f"{option}: not available for three-phase captures; give the "
+                                "values in volts and amperes (or units in the header)")
+        if windows:
+            raise UserError("--windows: not available for three-phase captures")
+        direction, regulating = settings.direction()
+        chosen = (load or ("unknown" if regulating else "all")).strip().lower()
+        analyse_3ph.run(file, rate=read.rate_hz, columns=read.columns, load=chosen,
+                        expect=direction or "import", as_json=as_json)
+        return
+    if load is not None:
+        raise UserError(f"--load: applies to three-phase captures only; {file} has no "
+                        "per-phase columns (voltage_l1_v, current_1_a, ...)")
     if wav and not (read.v_scale and read.i_scale):
         raise UserError(f"{file}: WAV samples are fractions of full scale; give --v-scale "
                         "(volts at full scale) and --i-scale (amperes at full scale) of "

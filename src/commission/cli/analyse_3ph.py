@@ -20,6 +20,12 @@ LOAD_WORDS = {"all": "load on every phase", "one": "load on one phase",
 SRC_CLASS_A = "IEC 61000-3-2 Class A Table 1 (from memory; indicative on site)"
 
 
+def maps_three_phase(columns: dict[str, str] | None) -> bool:
+    """True when a column mapping (--columns or an export profile) names per-phase columns."""
+    return any(k in HEADER_HINTS or k in ("voltage_l3_v", "current_n_a")
+               for k in (columns or {}))
+
+
 def looks_three_phase(path: str) -> bool:
     """True when the CSV header names per-phase columns (read from the first 64 KiB)."""
     try:
