@@ -156,7 +156,8 @@ def test_stored_text_with_an_include_is_refused():
 RELEASED_3PH = {"1.0.0": "1f8209b95d88076ba32ab8fd8cd6227aebdd27b492012c0e021566bc3ec6b8ae",
                 # 1.1.0: the included heatsink section of diverter-1ph 1.6.0 (soak help, rise
                 # factor stated)
-                "1.1.0": "8521ceafa6774608d5cdfc10a54044f7fd37b423c79a9012272c00428d26ec70"}
+                "1.1.0": "8521ceafa6774608d5cdfc10a54044f7fd37b423c79a9012272c00428d26ec70",
+                "1.2.0": "c37be6a6a1b5ce500f2a6f86f844a326092176eb5a35dfd2895bc6cd83c6d3d3"}
 
 
 def test_three_phase_version_pins_its_resolved_text():

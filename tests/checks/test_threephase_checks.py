@@ -119,11 +119,14 @@ def test_regulation_target_follows_the_metering(target, meter, elements, clamps,
 
 @pytest.fixture
 def demo3(cli, new_job, tmp_path):
-    for serial in ("MFT-7731", "CLAMP-4410", "ROT-118"):
+    for serial in ("MFT-7731", "CLAMP-4410", "ROT-118", "PA-9043"):
         assert cli("instruments", "add", "--serial", serial, "--make", "K", "--model", "M",
                    "--calibration-due", "2099-12-31").exit_code == 0
     shutil.copytree(DEMO3 / "files", tmp_path / "files")
     shutil.copytree(DEMO / "files", tmp_path / "shared" / "files")
+    from commission.demo.voltage import write_capture
+
+    write_capture(tmp_path / "files" / "supply-voltage.wav")  # the demo makes it when it runs
     job = new_job(checklist="diverter-3ph", site="Quarry Lodge")
 
     def run(replace: dict[str, str] | None = None, drop: tuple[str, ...] = ()) -> dict:
@@ -131,6 +134,7 @@ def demo3(cli, new_job, tmp_path):
         text = "".join(line for line in text.splitlines(keepends=True)
                        if not line.startswith(drop) or not drop)
         text = text.replace("../files/", "shared/files/")
+        text += "flicker.capture: {file: files/supply-voltage.wav}\n"
         for old, new in (replace or {}).items():
             assert old in text, old
             text = text.replace(old, new)

@@ -68,6 +68,8 @@ def _resolution_w(ctx: Context, name: str | None) -> float:
         "basic_current_a": Param(10.0, "A", "IEC 62053-21 Ib of a direct meter (from memory)",
                                  "basic current Ib the class limits are stated against"),
         "decision_rule": Param(GUARDED, None, SRC_DECISION, "'guarded' or 'simple'"),
+        "phases": Param(1, None, "the supply", "3 when the powers are totals of three phases "
+                        "(the current per phase is then a third)"),
     },
 )
 def metering_accuracy(ctx: Context) -> Outcome:
@@ -122,7 +124,8 @@ def judge_metering(ctx: Context) -> MeteringJudgement:
         if ref == 0:
             notes.append(f"{p['name']}: zero reference power, not judged")
             continue
-        current = abs(ref) / (volts * p["power_factor"])
+        phases = max(1, int(float(ctx.param("phases"))))
+        current = abs(ref) / (phases * volts * p["power_factor"])
         limit = mt.class_limit_pct(cls, current / ib, p["power_factor"])
         err = mt.point_error_pct(ref, p["shown_w"])
         p["error_pct"] = err

@@ -82,17 +82,15 @@ def demo(
         job = reg.create_job(loaded, details, by="demo")
         state = JobState(reg, job)
         report = apply_answers(state, here / plan["answers"])
-        if scenario == "single-phase":
-            # The 10-minute voltage capture is made now, not shipped (2.5 MB of invented data).
-            from ..demo.voltage import write_capture
+        # The 10-minute voltage capture is made now, not shipped (2.5 MB of invented data).
+        from ..demo.voltage import write_capture
 
-            write_capture(folder / "supply-voltage.wav")
-            made_now = folder / "demo-answers-generated.yaml"
-            made_now.write_text("flicker.capture: {file: supply-voltage.wav}\n",
-                                encoding="utf-8")
-            more = apply_answers(state, made_now)
-            report.added += more.added
-            report.rejected.extend(more.rejected)
+        write_capture(folder / "supply-voltage.wav")
+        made_now = folder / "demo-answers-generated.yaml"
+        made_now.write_text("flicker.capture: {file: supply-voltage.wav}\n", encoding="utf-8")
+        more = apply_answers(state, made_now)
+        report.added += more.added
+        report.rejected.extend(more.rejected)
         for item_id, message in report.rejected:
             typer.echo(f"{item_id}: {message}", err=True)
         made = make(state, load_form(resolve("forms", "handover")), sign=True,
