@@ -36,6 +36,7 @@ RELEASED: dict[str, dict[str, tuple[str, ...]]] = {
     "diverter-3ph": {
         "1.0.0": ("1f8209b95d88076ba32ab8fd8cd6227aebdd27b492012c0e021566bc3ec6b8ae",),
         "1.1.0": ("8521ceafa6774608d5cdfc10a54044f7fd37b423c79a9012272c00428d26ec70",),
+        "1.2.0": ("c37be6a6a1b5ce500f2a6f86f844a326092176eb5a35dfd2895bc6cd83c6d3d3",),
     },
 }
 
