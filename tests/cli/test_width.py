@@ -112,6 +112,9 @@ def commands(world) -> list[tuple[str, list[str]]]:
         ("instruments add", ["instruments", "add", "--serial", "X", "--make", "K", "--model",
                              "M", "--calibration-due", "31/01/2030"]),
         ("instruments list", ["instruments", "list"]),
+        ("instruments profile", ["instruments", "profile", "OLD-1", "--columns",
+                                 "temp_c=T1,time_s=Zeit"]),
+        ("instruments profile", ["instruments", "profile", "NOSUCH", "--columns", "x"]),
         ("identity new", ["identity", "new", "--name", "A B", "--registration", "R-1",
                           "--force"]),  # refused: the demo passphrase is too short
         ("identity show", ["identity", "show"]),
