@@ -14,6 +14,7 @@ from typer.testing import CliRunner
 ROOT = Path(__file__).resolve().parent.parent
 CHECKLIST = ROOT / "checklists" / "diverter-1ph.yaml"
 DEMO = ROOT / "src" / "commission" / "demo"
+pytest_plugins = ["engines"]  # the register engines (SQLite, and a throw-away PostgreSQL)
 
 
 @pytest.fixture(autouse=True)

@@ -9,8 +9,8 @@ from __future__ import annotations
 from typing import Any
 
 from .checks.evaluate import Result
+from .job import JobState
 from .register.store import Entry, Instrument
-from .walk.state import JobState
 
 
 def _entry_json(e: Entry, instruments: dict[int, Instrument],

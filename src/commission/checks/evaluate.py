@@ -87,7 +87,7 @@ def evaluate(
     """One Result per item, in walk order.
 
     ``files`` gives checks the bytes of recorded files: an object with
-    ``path(sha256) -> Path | None`` and a ``memo`` dict (see walk.state.FileStore).
+    ``path(sha256) -> Path | None`` and a ``memo`` dict (see job.FileStore).
     """
     instruments = instruments or {}
     current, history = current_entries(entries)

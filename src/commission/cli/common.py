@@ -8,23 +8,22 @@ from typing import Annotated, Any
 import typer
 
 RegisterOpt = Annotated[
-    Path | None,
+    str | None,
     typer.Option(
         "--register",
-        help="Register file. Default: $COMMISSION_REGISTER, else the user data directory.",
+        help="Register file, or a company register's postgresql:// URL (its password from "
+        "PGPASSFILE or a service file, never here). Default: $COMMISSION_REGISTER, else the "
+        "user data directory.",
         show_default=False,
     ),
 ]
 JsonOpt = Annotated[bool, typer.Option("--json", help="Machine-readable output (SI units).")]
 
 
-def open_register(option: Path | None, create: bool = True):
-    from ..paths import register_path
-    from ..register import Register
+def open_register(option: str | Path | None, create: bool = True):
+    from ..register import open_register as engine
 
-    reg = Register(register_path(option), create=create)
-    reg.open()
-    return reg
+    return engine(option, create=create)
 
 
 def emit_json(data: Any) -> None:

@@ -41,6 +41,7 @@ def demo(
     from ..checklist import load
     from ..checks import CHECKS
     from ..errors import UserError
+    from ..job import JobState
     from ..register import Register
     from ..report import identity, trust
     from ..report.build import make
@@ -48,7 +49,6 @@ def demo(
     from ..report.verify import verify
     from ..resources import demo_dir, resolve
     from ..walk.answers import apply_answers
-    from ..walk.state import JobState
 
     if scenario not in SCENARIOS:
         raise UserError(f"--scenario: {scenario!r} is not a demo scenario (accepted: "

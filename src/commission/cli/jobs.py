@@ -50,7 +50,7 @@ def new(
     with open_register(register) as reg:
         job = reg.create_job(loaded, details)
         typer.echo(f"job for {job.details['site']} on {loaded.checklist.id} "
-                   f"{loaded.checklist.version}, register {reg.path}")
+                   f"{loaded.checklist.version}, register {reg.location}")
         typer.echo(job.short_id)
 
 
@@ -88,7 +88,7 @@ def checked_details(**given: str | None) -> dict[str, str]:
 
 def jobs(register: RegisterOpt = None, as_json: JsonOpt = False) -> None:
     """List the jobs in the register with their status."""
-    from ..walk.state import JobState
+    from ..job import JobState
 
     with open_register(register) as reg:
         rows = []
@@ -117,9 +117,9 @@ def show(
 ) -> None:
     """Show a job: its status and every item's value, verdict, reason and source."""
     from ..checks.evaluate import status_reasons
+    from ..job import JobState
     from ..present import SIGN_CONVENTION, WIDTH, table, use_colour, word
     from ..snapshot import job_json
-    from ..walk.state import JobState
 
     with open_register(register, create=False) as reg:
         state = JobState(reg, reg.find_job(job))

@@ -79,10 +79,10 @@ def report(
 ) -> None:
     """Write the handover record: results, charts, cautions, homeowner page, signatures."""
     from ..errors import UserError
+    from ..job import JobState
     from ..report.build import make
     from ..report.pdf import load_form
     from ..resources import resolve
-    from ..walk.state import JobState
 
     form_data = load_form(resolve("forms", form))
     if out.exists() and not force:

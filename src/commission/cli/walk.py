@@ -65,13 +65,12 @@ def walk(
     register: RegisterOpt = None,
 ) -> None:
     """Walk the job's checklist on site: one item at a time, each answer kept at once."""
-    from ..walk.lock import JobLock
-    from ..walk.state import JobState
+    from ..job import JobState
 
     with open_register(register, create=False) as reg:
         target = reg.find_job(job)
         inst = reg.instrument_by_serial(instrument) if instrument else None
-        with JobLock(reg.path, target.uuid, target.short_id):
+        with reg.walk_lock(target):
             if inst is not None:
                 # Kept with the job: a walk resumed after Ctrl-C stamps the same instrument.
                 reg.set_instrument_in_use(target, inst)

@@ -50,6 +50,23 @@ def now_iso() -> str:
     return datetime.now(UTC).isoformat(timespec="milliseconds").replace("+00:00", "Z")
 
 
+def later_than(last: str | None) -> str:
+    """Now, or one millisecond after ``last`` when the clock has not moved past it: entry
+    times within one job on one device are strictly increasing, so ordering by (entry time,
+    UUID) keeps the order they were typed in."""
+    now = now_iso()
+    if last is None or now > last:
+        return now
+    try:
+        then = datetime.fromisoformat(last.replace("Z", "+00:00"))
+    except ValueError:
+        return now
+    from datetime import timedelta
+
+    bumped = (then + timedelta(milliseconds=1)).astimezone(UTC)
+    return bumped.isoformat(timespec="milliseconds").replace("+00:00", "Z")
+
+
 def who() -> str:
     name = os.environ.get("COMMISSION_USER")
     if name:
@@ -236,6 +253,20 @@ class Register:
         self._db = None
 
     @property
+    def location(self) -> str:
+        return str(self.path)
+
+    def schema_version(self) -> int:
+        return int(self.db.execute("PRAGMA user_version").fetchone()[0])
+
+    def walk_lock(self, job: Job):
+        """One walk per job: an OS file lock beside the register, released by the OS if the
+        process dies."""
+        from .lock import JobLock
+
+        return JobLock(self.path, job.uuid, job.short_id)
+
+    @property
     def db(self) -> sqlite3.Connection:
         if self._db is None:
             self.open()
@@ -342,6 +373,15 @@ class Register:
             raise UserError(f"job '{ref}': not in {self.path}{hint}")
         return self._job(row)
 
+    def has_job(self, *, uuid: str | None = None, short_id: str | None = None) -> bool:
+        row = self.db.execute("SELECT 1 FROM jobs WHERE uuid = ? OR short_id = ?",
+                              (uuid, short_id)).fetchone()
+        return row is not None
+
+    def has_entry(self, uuid: str) -> bool:
+        return self.db.execute("SELECT 1 FROM entries WHERE uuid = ?", (uuid,)).fetchone() \
+            is not None
+
     def jobs(self) -> list[Job]:
         return [self._job(r) for r in self.db.execute("SELECT * FROM jobs ORDER BY id")]
 
@@ -378,13 +418,17 @@ class Register:
                 "SELECT id FROM entries WHERE job_id = ? AND item_id = ? ORDER BY id DESC LIMIT 1",
                 (job.id, item_id),
             ).fetchone()
+            if at is None:
+                last = self.db.execute("SELECT max(at) FROM entries WHERE job_id = ?",
+                                       (job.id,)).fetchone()[0]
+                at = later_than(last)
             cur = self._write(
                 "INSERT INTO entries (uuid, job_id, item_id, action, raw, value_json, unit_typed,"
                 " instrument_id, at, by, supersedes, host, read_with)"
                 " VALUES (?,?,?,?,?,?,?,?,?,?,?,?,?)",
                 (uuid or str(uuidlib.uuid4()), job.id, item_id, action, raw,
                  json.dumps(value, ensure_ascii=False), unit_typed, instrument_id,
-                 at or now_iso(), by or who(), prev[0] if prev else None,
+                 at, by or who(), prev[0] if prev else None,
                  device,
                  json.dumps(read_with, sort_keys=True) if read_with else None),
             )
@@ -399,12 +443,14 @@ class Register:
     def _entries(self, job_id: int, where: str = "") -> list[Entry]:
         rows = self.db.execute(
             "SELECT id, uuid, item_id, action, raw, value_json, unit_typed, instrument_id, at, by,"
-            f" supersedes, host, read_with FROM entries WHERE job_id = ? {where} ORDER BY id",
+            f" supersedes, host, read_with FROM entries WHERE job_id = ? {where}"
+            " ORDER BY at, uuid",
             (job_id,))
         return [_entry(r) for r in rows]
 
     def entries(self, job: Job) -> list[Entry]:
-        """Every entry of a job, oldest first (answers, skips, n/a and detail changes)."""
+        """Every entry of a job, oldest first by (entry time, UUID), so the last of an item
+        is current on every engine and after entries from other devices came in."""
         return self._entries(job.id)
 
     # -- instruments ---------------------------------------------------------

@@ -9,7 +9,7 @@ from pathlib import Path
 from typing import Any
 
 from .. import record as rec
-from ..walk.state import JobState
+from ..job import JobState
 from . import archival
 
 

@@ -17,8 +17,8 @@ from typing import Any
 from xml.sax.saxutils import escape
 
 from ..checks.evaluate import Result
+from ..job import JobState
 from ..present import SIGN_CONVENTION, format_value
-from ..walk.state import JobState
 from .form import SECTIONS, load_form  # noqa: F401  (load_form: the CLI's entry point)
 
 FONT, BOLD = "CommSans", "CommSans-Bold"

@@ -17,16 +17,16 @@ from ..checklist import ChecklistError, Loaded, parse
 from ..checks import CHECKS
 from ..errors import UserError
 from ..record import AnyRecord, RecordV1
+from ..register.protocol import RegisterEngine
 
 _IMPORTED_BY = "record"  # format 2 names no operating-system user: entries say "record"
 
 
-def restore(register: Path | None, record: AnyRecord, files: dict[str, bytes],
+def restore(register: str | Path | None, record: AnyRecord, files: dict[str, bytes],
             imported: str = "verified") -> tuple[str, int]:
     """Insert the job, its entries (same ids and times), instruments and files.
     Returns (short id, number of files restored)."""
-    from ..paths import register_path
-    from ..register import Register
+    from ..register import SQLiteRegister, make_register
 
     checklist = record.checklist
     try:
@@ -40,9 +40,9 @@ def restore(register: Path | None, record: AnyRecord, files: dict[str, bytes],
     source = record.job.checklist.source if isinstance(record, RecordV1) else ""
     loaded = Loaded(loaded.checklist, loaded.text, loaded.sha256, source)
 
-    path = register_path(register)
-    existed = path.exists()
-    reg = Register(path)
+    reg = make_register(register)
+    path = reg.path if isinstance(reg, SQLiteRegister) else None
+    existed = path is None or path.exists()
     try:
         reg.open()
         with reg:
@@ -57,19 +57,20 @@ def restore(register: Path | None, record: AnyRecord, files: dict[str, bytes],
     return record.job.id, restored
 
 
-def _write(reg, record: AnyRecord, files: dict[str, bytes], loaded: Loaded, imported: str,
+def _write(reg: RegisterEngine, record: AnyRecord, files: dict[str, bytes], loaded: Loaded,
+           imported: str,
            v1: bool) -> int:
     job_data = record.job
-    if reg.db.execute("SELECT 1 FROM jobs WHERE uuid = ?", (job_data.uuid,)).fetchone():
+    if reg.has_job(uuid=job_data.uuid):
         raise UserError(f"job {job_data.id} ({job_data.uuid}) is already in "
-                        f"{reg.path}; nothing imported")
-    if reg.db.execute("SELECT 1 FROM jobs WHERE short_id = ?", (job_data.id,)).fetchone():
-        raise UserError(f"another job already uses the id {job_data.id} in {reg.path}; "
+                        f"{reg.location}; nothing imported")
+    if reg.has_job(short_id=job_data.id):
+        raise UserError(f"another job already uses the id {job_data.id} in {reg.location}; "
                         "import it into another register (--register)")
     for n, e in enumerate(record.entries, start=1):
-        if reg.db.execute("SELECT 1 FROM entries WHERE uuid = ?", (e.uuid,)).fetchone():
-            raise UserError(f"entry {n} of the record ({e.uuid}) is already in {reg.path}, "
-                            "in another job; nothing imported")
+        if reg.has_entry(e.uuid):
+            raise UserError(f"entry {n} of the record ({e.uuid}) is already in "
+                            f"{reg.location}, in another job; nothing imported")
     restored = 0
     with reg.batch(), tempfile.TemporaryDirectory(prefix="commission-import-") as tmp:
         known = {i.serial for i in reg.instruments()}

@@ -23,8 +23,8 @@ from pathlib import Path
 import yaml
 
 from ..errors import UserError
+from ..job import JobState
 from ..register.store import RegisterError
-from .state import JobState
 from .values import BadAnswer, parse_answer
 
 _FORMS = {"skip", "na", "file", "photo", "text"}

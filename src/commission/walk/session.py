@@ -12,9 +12,9 @@ from dataclasses import dataclass, field
 from typing import Protocol
 
 from ..checks.evaluate import Result, status_reasons
+from ..job import JobState
 from ..present import SIGN_CONVENTION, WIDTH, format_value, verdict_lines, word
 from ..register.store import Instrument
-from .state import JobState
 from .values import BadAnswer, parse_answer
 
 COMMANDS = """\

@@ -1,0 +1,112 @@
+"""What every register engine offers: jobs, entries, instruments, files, locks and its own
+migrations.
+
+Two engines implement it: ``store.Register`` (SQLite, one file, the default and an
+installer's working copy) and ``postgres.PostgresRegister`` (a company's shared register).
+Nothing outside ``register/`` writes SQL; everything else (the walk, the report, verify,
+import, sync) talks to this protocol, so the same code and the same tests run on both.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterator
+from contextlib import AbstractContextManager
+from pathlib import Path
+from typing import Any, Protocol, runtime_checkable
+
+from .store import Entry, Instrument, Job
+
+
+@runtime_checkable
+class RegisterEngine(Protocol):
+    """A register engine. ``location`` names it for people (a file path, or a URL without
+    its password); ``read_only`` says this user may read but not write."""
+
+    location: str
+    read_only: bool
+
+    # -- opening, closing, migrations -----------------------------------------
+    def open(self) -> None:
+        """Connect and bring the schema up to date (a newer schema is refused)."""
+
+    def close(self) -> None: ...
+
+    def __enter__(self) -> RegisterEngine: ...
+
+    def __exit__(self, *exc: object) -> None: ...
+
+    def schema_version(self) -> int:
+        """The schema version this register is at (after open: the current one)."""
+
+    def batch(self) -> AbstractContextManager[None]:
+        """One transaction around many writes: all of them are kept, or none."""
+
+    def device_id(self) -> str:
+        """This register's random device id, made on first use."""
+
+    # -- jobs ---------------------------------------------------------------------
+    def create_job(self, checklist: Any, details: dict[str, str],
+                   by: str | None = None) -> Job: ...
+
+    def insert_job(self, *, short_id: str, uuid: str, created_at: str, created_by: str,
+                   details: dict[str, str], checklist: Any, imported: str = "",
+                   recorded: dict[str, Any] | None = None) -> Job: ...
+
+    def job(self, job_id: int) -> Job: ...
+
+    def find_job(self, ref: str) -> Job:
+        """A job by short id, UUID or an unambiguous UUID prefix (UserError if none)."""
+
+    def has_job(self, *, uuid: str | None = None, short_id: str | None = None) -> bool: ...
+
+    def jobs(self) -> list[Job]: ...
+
+    def amend(self, job: Job, changes: dict[str, str], by: str | None = None) -> list[Entry]:
+        ...
+
+    # -- entries (append-only) ------------------------------------------------------
+    def add_entry(self, job: Job, item_id: str, action: str, raw: str, value: Any = None,
+                  unit_typed: str | None = None, instrument_id: int | None = None,
+                  by: str | None = None, at: str | None = None, uuid: str | None = None,
+                  host: str | None = None,
+                  read_with: dict[str, Any] | None = None) -> Entry:
+        """Append one entry and commit it (unless inside ``batch``) before returning."""
+
+    def entries(self, job: Job) -> list[Entry]:
+        """Every entry of a job in the order that makes the last one of an item current:
+        by (entry time, UUID)."""
+
+    def has_entry(self, uuid: str) -> bool: ...
+
+    # -- instruments ------------------------------------------------------------------
+    def add_instrument(self, serial: str, make: str, model: str, calibration_due: str,
+                       accuracy: str = "", accuracy_read_as: str = "") -> Instrument: ...
+
+    def instrument(self, instrument_id: int) -> Instrument: ...
+
+    def instruments(self) -> list[Instrument]: ...
+
+    def instrument_by_serial(self, serial: str) -> Instrument: ...
+
+    def instrument_in_use(self, job: Job) -> Instrument | None: ...
+
+    def set_instrument_in_use(self, job: Job, instrument: Instrument | None) -> None: ...
+
+    def set_export_profile(self, serial: str, profile: dict[str, Any]) -> Instrument: ...
+
+    def export_profile_json(self, instrument_id: int) -> dict[str, Any] | None: ...
+
+    def export_profile(self, serial: str) -> Any: ...
+
+    # -- files (by SHA-256, in chunks, streamed) ----------------------------------------
+    def put_file(self, path: Path) -> tuple[str, int]: ...
+
+    def read_blob(self, sha256: str) -> Iterator[bytes]: ...
+
+    def has_blob(self, sha256: str) -> bool: ...
+
+    # -- locks and copies -------------------------------------------------------------
+    def walk_lock(self, job: Job) -> AbstractContextManager[Any]:
+        """Hold the job for one walk; a second walk is refused, naming the holder."""
+
+    def backup(self, dest: Path) -> None: ...
