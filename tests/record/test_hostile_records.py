@@ -77,7 +77,7 @@ class Forge:
             state = JobState(reg, reg.find_job(self.demo["job"]))
             results = state.results()
             signing = rec.SigningInfo(created_at=GENERATED,
-                                      installer_fingerprint=load_identity().fingerprint)
+                                      installer_certificate_sha256=load_identity().fingerprint)
             built = rec.build(state, results, GENERATED, signing)
             data = copy.deepcopy(built.data)
             attachments = list(built.attachments)

@@ -62,7 +62,7 @@ def test_the_record_names_no_user_host_or_local_path(demo):
 
     payload = _payload(demo["pdf"])
     data = json.loads(payload)
-    assert data["format"] == "commission-record/2"
+    assert data["format"] == "commission-record/3"
     text = payload.decode("utf-8")
     for word in {getpass.getuser(), socket.gethostname(), "tester"}:
         assert f'"{word}"' not in text, word
@@ -82,7 +82,7 @@ def test_the_record_names_no_user_host_or_local_path(demo):
     from commission.report.identity import fingerprint, load_certificate_bytes
 
     cert = load_certificate_bytes(demo["cert"].read_bytes(), "cert")
-    assert data["signing"]["installer_fingerprint"] == fingerprint(cert)
+    assert data["signing"]["installer_certificate_sha256"] == fingerprint(cert)
     assert data["signing"]["created_at"] == data["generated_at"]
 
 
@@ -109,6 +109,27 @@ def test_a_record_of_the_previous_release_still_verifies(cli, name, version):
     assert "check logic 1" in result.stdout
     assert result.stdout.strip().endswith("verified")
     assert json.loads(_payload(pdf))["format"] == "commission-record/1"
+
+
+def test_a_format_2_record_still_verifies(cli):
+    """record-v2 was made by `commission demo` with main's code just before format 3
+    (its installer certificate: record-v2-installer.pem)."""
+    from commission import record as rec
+
+    pdf = DATA / "record-v2.pdf"
+    payload = _payload(pdf)
+    data = json.loads(payload)
+    assert data["format"] == "commission-record/2"
+    parsed = rec.parse(data)
+    # format 2 declared the fingerprint under its old name; it reads as the same fact
+    from commission.report.identity import fingerprint, load_certificate_bytes
+
+    cert = load_certificate_bytes((DATA / "record-v2-installer.pem").read_bytes(), "cert")
+    assert parsed.installer_certificate_sha256 == fingerprint(cert)
+    assert parsed.reviewer_stamp is None
+    result = cli("verify", pdf, "--trust", DATA / "record-v2-installer.pem")
+    assert result.exit_code == 0, result.output
+    assert result.stdout.strip().endswith("verified")
 
 
 def test_a_record_of_the_previous_release_imports(cli, tmp_path):
@@ -311,3 +332,22 @@ def test_a_typed_answer_with_a_control_character_is_refused_when_typed():
     with pytest.raises(BadAnswer, match=r"control character \\x1b"):
         parse_answer(item, "Brightwell\x1b[2J")
     assert parse_answer(item, "Brightwell SL-3600").value == "Brightwell SL-3600"
+
+
+def test_the_record_declares_the_reviewer_stamp_box_the_pages_draw(demo):
+    """The stamp box declared inside the signed record is where the page draws the dashed
+    box (read back with pdfplumber, independent of reportlab)."""
+    import pdfplumber
+
+    data = json.loads(_payload(demo["pdf"]))
+    box = data["signing"]["reviewer_stamp"]
+    assert box["field"] == "Reviewer"
+    x1, y1, x2, y2 = box["rect"]
+    assert x2 - x1 > 100 and y2 - y1 > 20
+    with pdfplumber.open(demo["pdf"]) as doc:
+        page = doc.pages[box["page"]]
+        height = float(page.height)
+        found = [r for r in page.rects
+                 if abs(r["x0"] - x1) < 0.5 and abs(r["x1"] - x2) < 0.5
+                 and abs((height - r["top"]) - y2) < 0.5 and abs((height - r["bottom"]) - y1) < 0.5]
+    assert len(found) == 1, (box, len(found))

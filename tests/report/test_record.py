@@ -66,7 +66,7 @@ def test_pdfdetach_lists_the_embedded_record(demo, tmp_path):
     target = tmp_path / "record.json"
     assert _run("pdfdetach", "-save", str(n), "-o", target, demo["pdf"]).returncode == 0
     record = json.loads(target.read_text(encoding="utf-8"))
-    assert record["format"] == "commission-record/2"
+    assert record["format"] == "commission-record/3"
     assert record["status"] == "ready"
     import hashlib
 

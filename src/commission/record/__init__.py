@@ -15,10 +15,12 @@ from .content import (
 from .schema import (
     FORMAT,
     FORMAT_V1,
+    FORMAT_V2,
     READABLE,
     AnyRecord,
     Record,
     RecordV1,
+    RecordV2,
     SigningInfo,
     StampBox,
     parse,
@@ -29,9 +31,9 @@ from .text import safe
 parse_record = read_record
 
 __all__ = [
-    "ATTACH_LIMIT", "FORMAT", "FORMAT_V1", "READABLE", "RECORD_NAME", "AnyRecord",
+    "ATTACH_LIMIT", "FORMAT", "FORMAT_V1", "FORMAT_V2", "READABLE", "RECORD_NAME", "AnyRecord",
     "BuiltRecord", "ChecklistVerdict", "ContentResult", "FilesFromPdf", "Record", "RecordError",
-    "RecordV1", "SigningInfo", "StampBox", "build", "canonical", "entries_from_record",
+    "RecordV1", "RecordV2", "SigningInfo", "StampBox", "build", "canonical", "entries_from_record",
     "file_name", "loads", "parse", "parse_record", "read_record", "record_hash", "safe",
     "verdict_snapshot", "verify_content",
 ]

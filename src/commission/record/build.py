@@ -1,4 +1,4 @@
-"""Build the record (format 2) from a job: everything needed to re-derive every verdict.
+"""Build the record (format 3) from a job: everything needed to re-derive every verdict.
 
 The whole checklist text, the job, every entry raw and parsed with its history, the
 instruments used, the program and check-logic versions, the SHA-256 of each file and

@@ -1,9 +1,13 @@
 """The embedded record's schema: one strict, versioned definition (pydantic).
 
 ``build`` writes through it, and ``verify``, ``import`` and every later reader parse
-through it, so nothing reads a record field that is not declared here. Format 2 is
-what this release writes; format 1 (the first release) is still read, so its records
-keep verifying. Later issues add fields to format 2 as optional fields with a default.
+through it, so nothing reads a record field that is not declared here. Format 3 is
+what this release writes; formats 1 (the first release) and 2 are still read, so their
+records keep verifying. Later issues add fields to format 3 as optional fields with a
+default. Format 3 declares, inside the signed record, the SHA-256 fingerprint of the
+installer's signing certificate and the one box reserved for the reviewer's stamp
+(``signing.installer_certificate_sha256``, ``signing.reviewer_stamp``; read them through
+``record.installer_certificate_sha256`` / ``record.reviewer_stamp`` on every format).
 
 What a record may hold is stated here, with its bounds: every string has a length
 limit, every list a count limit, numbers are finite, one-line fields hold no control
@@ -30,8 +34,9 @@ from pydantic import (
 from .text import first_control
 
 FORMAT_V1 = "commission-record/1"
-FORMAT = "commission-record/2"
-READABLE = (FORMAT_V1, FORMAT)
+FORMAT_V2 = "commission-record/2"
+FORMAT = "commission-record/3"
+READABLE = (FORMAT_V1, FORMAT_V2, FORMAT)
 
 # Bounds (a real record is far inside every one; a hostile one meets them early).
 MAX_LINE = 200  # ids, names, serials, times
@@ -184,7 +189,7 @@ class StampBox(_Strict):
 
     field: Line
     page: Annotated[StrictInt, Field(ge=0, le=10_000)]
-    rect: tuple[Finite, Finite, Finite, Finite]
+    rect: Annotated[list[Finite], Field(min_length=4, max_length=4)]  # [x1, y1, x2, y2]
 
     @model_validator(mode="after")
     def _ordered(self) -> StampBox:
@@ -195,14 +200,27 @@ class StampBox(_Strict):
 
 
 class SigningInfo(_Strict):
-    """Signed facts the signature checks rely on (absent from unsigned records)."""
+    """Signed facts the signature checks rely on (format 3; absent from unsigned records).
+
+    ``installer_certificate_sha256``: SHA-256 of the DER certificate the installer signs
+    with (the first signature must be made with exactly that certificate);
+    ``reviewer_stamp``: the one box on the pages reserved for the reviewer's visible
+    countersignature stamp (field name, page from 0, rectangle in PDF points)."""
+
+    created_at: Timestamp
+    installer_certificate_sha256: Sha256
+    reviewer_stamp: StampBox | None = None
+
+
+class SigningInfoV2(_Strict):
+    """Format 2's signing facts (read only)."""
 
     created_at: Timestamp
     installer_fingerprint: Sha256 | None = None
     stamp: StampBox | None = None
 
 
-# -- format 2 -----------------------------------------------------------------------
+# -- format 3 -----------------------------------------------------------------------
 
 class Job(Details):
     id: Line
@@ -229,7 +247,7 @@ class Entry(_Strict):
 
 
 class Record(_Strict):
-    format: Literal["commission-record/2"]
+    format: Literal["commission-record/3"]
     tool: Tool
     generated_at: Timestamp
     job: Job
@@ -246,6 +264,45 @@ class Record(_Strict):
     @property
     def check_logic(self) -> int:
         return 1 if self.tool.check_logic is None else self.tool.check_logic
+
+    @property
+    def installer_certificate_sha256(self) -> str | None:
+        return self.signing.installer_certificate_sha256 if self.signing else None
+
+    @property
+    def reviewer_stamp(self) -> StampBox | None:
+        return self.signing.reviewer_stamp if self.signing else None
+
+
+# -- format 2 (read only) -----------------------------------------------------------
+
+class RecordV2(_Strict):
+    format: Literal["commission-record/2"]
+    tool: Tool
+    generated_at: Timestamp
+    job: Job
+    checklist: ChecklistRef
+    entries: Annotated[list[Entry], Field(max_length=MAX_ENTRIES)]
+    instruments: Annotated[list[Instrument], Field(max_length=MAX_ITEMS)]
+    files: Annotated[list[FileMeta], Field(max_length=MAX_ITEMS)]
+    verdicts: Annotated[list[Verdict], Field(max_length=MAX_ITEMS)]
+    status: Literal[STATUSES]  # type: ignore[valid-type]
+    signing: SigningInfoV2 | None = None
+    next_inspection: NextInspection | None = None  # when the installation is due again
+    language: Line = "en"  # of the homeowner's pages
+
+    @property
+    def check_logic(self) -> int:
+        return 1 if self.tool.check_logic is None else self.tool.check_logic
+
+    @property
+    def installer_certificate_sha256(self) -> str | None:
+        # format 2 records made by report --sign declare it under its old name
+        return self.signing.installer_fingerprint if self.signing else None
+
+    @property
+    def reviewer_stamp(self) -> StampBox | None:
+        return self.signing.stamp if self.signing else None
 
 
 # -- format 1 (read only) -----------------------------------------------------------
@@ -302,8 +359,16 @@ class RecordV1(_Strict):
     def check_logic(self) -> int:
         return 1  # format 1 predates the check-logic version: call it 1
 
+    @property
+    def installer_certificate_sha256(self) -> str | None:
+        return None  # format 1 declares no certificate: that check is not available
 
-AnyRecord = Record | RecordV1
+    @property
+    def reviewer_stamp(self) -> StampBox | None:
+        return None
+
+
+AnyRecord = Record | RecordV2 | RecordV1
 
 
 def field_path(loc: tuple[Any, ...]) -> str:
@@ -330,7 +395,9 @@ def parse(data: Any) -> AnyRecord:
     if not isinstance(data, dict):
         raise RecordError("is not a JSON object")
     fmt = data.get("format")
-    model = {FORMAT: Record, FORMAT_V1: RecordV1}.get(fmt) if isinstance(fmt, str) else None
+    models: dict[str, type[BaseModel]] = {FORMAT: Record, FORMAT_V2: RecordV2,
+                                          FORMAT_V1: RecordV1}
+    model = models.get(fmt) if isinstance(fmt, str) else None
     if model is None:
         raise RecordError(f"field format: {safe(str(fmt))[:60]!s} is not a record format this "
                           f"release reads ({', '.join(READABLE)})")

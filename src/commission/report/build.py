@@ -61,32 +61,43 @@ def make(state: JobState, form: dict[str, Any], sign: bool = False,
          passphrase: str | None = None, signing: rec.SigningInfo | None = None) -> Made:
     """``signing``: the signed facts the record declares (creation time, the installer's
     certificate fingerprint, the reviewer's stamp box). When signing without one, the
-    creation time and the loaded identity's fingerprint are declared."""
+    creation time, the loaded identity's certificate fingerprint and the stamp box the
+    layout reserved are declared."""
     from .pdf import render
 
     results = state.results()
     generated_at = datetime.now(UTC).isoformat(timespec="seconds").replace("+00:00", "Z")
-    if signing is None and sign:
-        from .identity import load_identity
-
-        signing = rec.SigningInfo(created_at=generated_at,
-                                  installer_fingerprint=load_identity().fingerprint)
-    built = rec.build(state, results, generated_at, signing)
-    signer = None
+    signer = ident = None
     if sign:
         from .identity import load_identity
 
         ident = load_identity()
         signer = {"name": ident.name, "registration": ident.registration or "",
                   "fingerprint": ident.fingerprint}
-    pdf = render(state, results, built.sha256, form, generated_at, signer=signer)
+    made: dict[str, rec.BuiltRecord] = {}
+
+    def record_for(stamp: dict[str, Any] | None) -> str:
+        facts = signing
+        if facts is None and ident is not None:
+            from .signing import REVIEWER_FIELD
+
+            box = rec.StampBox(field=REVIEWER_FIELD, page=stamp["page"],
+                               rect=list(stamp["rect"])) if stamp else None
+            facts = rec.SigningInfo(created_at=generated_at,
+                                    installer_certificate_sha256=ident.fingerprint,
+                                    reviewer_stamp=box)
+        made["built"] = rec.build(state, results, generated_at, facts)
+        return made["built"].sha256
+
+    pdf = render(state, results, record_for, form, generated_at, signer=signer)
+    built = made["built"]
     pdf = embed_files(pdf, built.payload, built.attachments, state)
     if sign:
         from .signing import sign_pdf
 
         pdf = sign_pdf(pdf, passphrase=passphrase or "", reason="Commissioning record",
                        location=state.job.details.get("site") or None,
-                       field_name="InstallerSignature")
+                       field_name="InstallerSignature", identity=ident)
     missing = [m["name"] for m in built.data["files"] if not m["attached"]]
     return Made(pdf, built.sha256, built.data["status"], len(built.attachments), missing)
 

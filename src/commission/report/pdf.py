@@ -11,6 +11,7 @@ text is drawn in the bundled DejaVu fonts (embedded) at 8 pt or more.
 from __future__ import annotations
 
 import io
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -32,6 +33,10 @@ _WEIGHT_WORDS = {"fail": "Fails", "review": "Needs review", "skipped": "Skipped"
                  "unanswered": "Not answered", "departure": "Departs from the shipped checklist",
                  "limitation": "Limitation of this inspection"}
 MUTED = "#55606b"
+# The one box reserved for the reviewer's visible countersignature stamp (PDF points),
+# beside the reviewer's row of the signer table on page 1; its page and rectangle are
+# declared in the signed record (``signing.reviewer_stamp``).
+STAMP_SIZE = (230.0, 46.0)
 
 
 def register_fonts() -> None:
@@ -100,6 +105,8 @@ class _Context:
     signer: dict[str, str] | None = None  # name, registration, fingerprint of the signer
     extract_of: dict[str, str] | None = None  # homeowner extract: the signed record's hashes
     _by_id: dict[str, Result] = field(default_factory=dict)
+    stamp: dict[str, Any] = field(default_factory=dict)  # where the stamp box was drawn
+    stamp_reserved: bool = False
 
     def __post_init__(self) -> None:
         self._by_id = {r.item.id: r for r in self.results}
@@ -269,7 +276,53 @@ def _signer_block(c: _Context) -> list:
         # extractor (a table cell would interleave with its neighbours).
         out.append(_p(f"Installer's certificate fingerprint (SHA-256): "
                       f"{_group(c.signer['fingerprint'])}", c.st["small"]))
+        if not c.stamp_reserved:
+            out.append(_stamp_row(c))
     return out
+
+
+def _stamp_row(c: _Context) -> Any:
+    """The reviewer's stamp box: only the first signer block holds it (one box)."""
+    from reportlab.platypus import Table, TableStyle
+
+    c.stamp_reserved = True
+    note = _p("Reviewer's digital stamp: 'commission countersign' draws the reviewer's name, "
+              "signing time and certificate fingerprint in the box beside; nothing else may "
+              "appear there.", c.st["small"])
+    row = Table([[note, _stamp_box(c.stamp)]], colWidths=[480 - STAMP_SIZE[0], STAMP_SIZE[0]])
+    row.setStyle(TableStyle([("FONT", (0, 0), (-1, -1), FONT, 8),
+                             ("VALIGN", (0, 0), (-1, -1), "MIDDLE"),
+                             ("LEFTPADDING", (1, 0), (1, 0), 0),
+                             ("RIGHTPADDING", (1, 0), (1, 0), 0)]))
+    return row
+
+
+def _stamp_box(sink: dict[str, Any]) -> Any:
+    """An empty dashed box that records where it was drawn (page from 0, PDF points)."""
+    from reportlab.lib import colors
+    from reportlab.platypus import Flowable
+
+    class StampBox(Flowable):
+        def wrap(self, avail_width, avail_height):
+            self.width, self.height = STAMP_SIZE
+            return STAMP_SIZE
+
+        def draw(self) -> None:
+            canv = self.canv
+            w, h = STAMP_SIZE
+            canv.saveState()
+            canv.setDash(2, 2)
+            canv.setLineWidth(0.6)
+            canv.setStrokeColor(colors.HexColor(MUTED))
+            canv.rect(0, 0, w, h, stroke=1, fill=0)
+            canv.restoreState()
+            x1, y1 = canv.absolutePosition(0, 0)
+            x2, y2 = canv.absolutePosition(w, h)
+            sink.update(page=canv.getPageNumber() - 1,
+                        rect=[round(min(x1, x2), 2), round(min(y1, y2), 2),
+                              round(max(x1, x2), 2), round(max(y1, y2), 2)])
+
+    return StampBox()
 
 
 def _summary(c: _Context) -> list:
@@ -575,11 +628,17 @@ _BUILDERS = {"status": _status, "summary": _summary, "instruments": _instruments
 assert set(_BUILDERS) == set(SECTIONS)
 
 
-def render(state: JobState, results: list[Result], record_sha: str, form: dict[str, Any],
+def render(state: JobState, results: list[Result],
+           record_sha: str | Callable[[dict[str, Any] | None], str], form: dict[str, Any],
            generated_at: str, signer: dict[str, str] | None = None,
            extract_of: dict[str, str] | None = None) -> bytes:
     """The record's pages; with ``extract_of`` (the signed record's hashes) only the
-    homeowner's pages, as an unsigned extract naming that record as the authority."""
+    homeowner's pages, as an unsigned extract naming that record as the authority.
+
+    ``record_sha`` may be a function: it is called once the pages are laid out, with
+    where the reviewer's stamp box landed (``{"page", "rect"}``, or None when no box was
+    drawn), and returns the record hash the footers and document info then print. So
+    the record can declare the box's place without a second layout."""
     from reportlab.lib.pagesizes import A4
     from reportlab.lib.units import mm
     from reportlab.pdfgen import canvas
@@ -587,6 +646,10 @@ def render(state: JobState, results: list[Result], record_sha: str, form: dict[s
 
     register_fonts()
     st = _styles()
+    late = record_sha if callable(record_sha) else None
+    if late is not None:
+        record_sha = "0" * 64  # the footer is drawn last, once the record is made
+    assert isinstance(record_sha, str)
     c = _Context(state, results, record_sha, form, generated_at, st, signer, extract_of)
     job = state.job
     title = form.get("title", "Commissioning record")
@@ -615,6 +678,13 @@ def render(state: JobState, results: list[Result], record_sha: str, form: dict[s
             self._startPage()
 
         def save(self):
+            nonlocal footer_left
+            if late is not None:
+                sha = late(dict(c.stamp) if c.stamp else None)
+                c.record_sha = sha
+                footer_left = f"Job {job.short_id} · record SHA-256 {sha}"
+                self.setSubject(f"commission record sha256:{sha}")
+                self.setKeywords([f"record-sha256:{sha}", f"job:{job.uuid}"])
             total = len(self._pages)
             for page in self._pages:
                 self.__dict__.update(page)
