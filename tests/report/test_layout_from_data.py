@@ -161,7 +161,7 @@ def test_demo_page_one_tells_the_truth(demo_record):
     page1 = _flat(_text(demo_record, 1, 1))
     cert = x509.load_pem_x509_certificate(
         (demo_record.parent / "identity" / "cert.pem").read_bytes())
-    assert cert.fingerprint(hashes.SHA256()).hex() in page1.replace(" ", "")
+    assert cert.fingerprint(hashes.SHA256()).hex().upper() in page1.replace(" ", "")
     assert re.search(r"Next inspection or service due: \d{4}-\d\d-\d\d", page1)
     checklist = load(resolve("checklists", "diverter-1ph"), checks=CHECKS).checklist
     show = subprocess.run(["pdftotext", str(demo_record), "-"], capture_output=True, text=True)

@@ -118,11 +118,12 @@ def test_verify_passes_with_trust(cli, demo):
     assert data["job_status"] == "ready"
 
 
-def test_untrusted_signer_exits_1_unless_allowed(cli, demo):
+def test_untrusted_signer_exits_1_and_no_option_lets_it_pass(cli, demo):
     result = _verify(cli, demo["pdf"])
     assert result.exit_code == 1
-    assert "trust" in result.stderr
-    assert _verify(cli, demo["pdf"], "--allow-untrusted").exit_code == 0
+    assert "not in your trust store" in result.stderr
+    gone = _verify(cli, demo["pdf"], "--allow-untrusted")
+    assert gone.exit_code == 2 and "--allow-untrusted" in gone.output
 
 
 def test_one_changed_byte_is_caught(cli, demo, tmp_path):
@@ -155,7 +156,7 @@ def test_not_a_pdf_exits_2(cli, tmp_path):
 
 def test_resigned_with_another_key_is_untrusted(cli, demo, tmp_path, monkeypatch):
     """A record altered and re-signed with a stranger's key (same name, new key pair) is
-    reported untrusted: exit 1 without --allow-untrusted."""
+    reported untrusted: exit 1."""
     from commission.register import Register
     from commission.report import build, identity, pdf
     from commission.resources import resolve
@@ -238,6 +239,7 @@ def test_countersigned_record_still_verifies(cli, demo, tmp_path, monkeypatch):
     monkeypatch.setenv("COMMISSION_PASSPHRASE", "reviewer-pass")
     identity.create_identity("Σοφία Παπαδοπούλου", "EL-7781", passphrase="reviewer-pass")
     trust.add(demo["cert"], "installer")
+    trust.add(identity.cert_path(), "me")  # every signature must be trusted, hers too
     out = tmp_path / "countersigned.pdf"
     result = cli("countersign", demo["pdf"], "--out", out)
     assert result.exit_code == 0, result.stderr

@@ -296,7 +296,9 @@ def test_show_export_and_fingerprint(cli, tmp_path):
     assert shown["fingerprint"] == hashlib.sha256(der).hexdigest()
     assert shown["registration"] == "REG-4711"
     text = cli("identity", "show").stdout
-    assert shown["fingerprint"] in text and shown["valid_until"][:10] in text
+    # read aloud in groups of four upper-case hex digits (grouped here, not by the program)
+    grouped = " ".join(shown["fingerprint"].upper()[k:k + 4] for k in range(0, 64, 4))
+    assert grouped in text and shown["valid_until"][:10] in text
 
 
 def test_backup_is_encrypted_and_restores(cli, tmp_path, monkeypatch):
@@ -342,12 +344,15 @@ def test_trust_add_list_remove(cli, tmp_path, monkeypatch):
     use_home(monkeypatch, tmp_path / "reviewer")
     assert json.loads(cli("trust", "list", "--json").stdout) == []
     added = cli("trust", "add", cert, "--name", "Zoë (installer)")
-    assert added.exit_code == 0 and fp in added.stdout and "now trusted" in added.stdout
+    # the fingerprint in groups of four upper-case hex digits, grouped here
+    grouped = " ".join(fp.upper()[k:k + 4] for k in range(0, 64, 4))
+    assert added.exit_code == 0 and grouped in added.stdout and "now trusted" in added.stdout
     assert "already trusted" in cli("trust", "add", cert).stdout
     listed = json.loads(cli("trust", "list", "--json").stdout)
     assert [(e["fingerprint"], e["label"], e["name"]) for e in listed] == \
         [(fp, "Zoë (installer)", "Zoë Łukasiewicz-Núñez")]
-    assert fp[:16] in cli("trust", "list").stdout
+    assert grouped in cli("trust", "list").stdout
+    assert listed[0]["roles"] == ["signer"]
 
     unknown = cli("trust", "remove", "ffffff" if not fp.startswith("ffffff") else "000000")
     assert unknown.exit_code == 2 and unknown.stderr.count("\n") == 1
@@ -439,8 +444,8 @@ def test_valid_and_trusted_after_trust_add_untrusted_without(cli, tmp_path, monk
     assert before.signed and before.signature_valid and before.intact
     assert before.signatures[0].valid and before.signatures[0].covers_whole
     assert not before.trusted and not before.signatures[0].trusted
-    assert before.problems == [] and "not in the trust store" in before.trust_note
-    assert before.ok(allow_untrusted=True) and not before.ok()
+    assert before.problems == [] and "not in your trust store" in before.trust_note
+    assert before.sound() and not before.ok()
     der = x509.load_pem_x509_certificate(cert_file.read_bytes()).public_bytes(Encoding.DER)
     assert before.signatures[0].fingerprint == hashlib.sha256(der).hexdigest()
 
@@ -495,7 +500,7 @@ def test_one_changed_byte_in_the_signed_range_is_caught(signed_file):
             assert exc.exit_code == 2 and "\n" not in str(exc)
             outcomes["not a pdf"] += 1
             continue
-        assert not report.ok(allow_untrusted=True), pos
+        assert not report.sound(), pos
         assert not (report.signature_valid and report.intact), pos
         assert report.problems and all("\n" not in p for p in report.problems)
         outcomes["caught"] += 1
@@ -517,7 +522,7 @@ def test_a_changed_byte_in_the_signature_container_is_caught(signed_file):
             report = check_signatures(bytes(changed))
         except NotAPdf:
             continue
-        assert not report.ok(allow_untrusted=True), pos
+        assert not report.sound(), pos
 
 
 def test_unreadable_input_raises_not_a_pdf():
@@ -536,7 +541,7 @@ def test_unsigned_pdf_is_reported_not_raised():
     report = check_signatures(make_pdf())
     assert not report.signed and not report.signature_valid and not report.trusted
     assert report.problems == ["the file carries no signature"]
-    assert report.first_reason(allow_untrusted=True) == "the file carries no signature"
+    assert report.first_reason() == "the file carries no signature"
 
 
 def test_bytes_appended_after_signing(signed_file):
@@ -714,10 +719,22 @@ def test_countersigned_file_keeps_both_signatures_valid(cli, tmp_path, monkeypat
     # the installer, who has not trusted the reviewer, sees the countersignature untrusted
     use_home(monkeypatch, tmp_path / "installer")
     theirs = check_signatures(second.read_bytes())
-    assert theirs.trusted and not theirs.signatures[1].trusted and theirs.ok()
+    # every signature must be trusted: the untrusted countersignature fails, named
+    assert theirs.signatures[0].trusted and not theirs.signatures[1].trusted
+    assert not theirs.trusted and not theirs.ok() and theirs.sound()
+    assert theirs.first_reason().startswith("signature 'Reviewer' (Дмитрий Кузнецов) is not "
+                                            "trusted")
 
-    # a second countersignature gets a field of its own
+    # so the installer cannot countersign after it until they trust the reviewer
     third = tmp_path / "third.pdf"
+    refused = cli("countersign", second, "--out", third)
+    assert refused.exit_code == 2 and "'Reviewer' (Дмитрий Кузнецов) is not trusted" in \
+        refused.stderr and not third.exists()
+    use_home(monkeypatch, tmp_path / "reviewer")
+    reviewer_cert = export_cert(cli, tmp_path / "dmitri.pem")
+    use_home(monkeypatch, tmp_path / "installer")
+    assert cli("trust", "add", reviewer_cert).exit_code == 0
+    # a second countersignature gets a field of its own
     assert cli("countersign", second, "--out", third).exit_code == 0
     fields = [s.field for s in check_signatures(third.read_bytes()).signatures]
     assert fields == ["Installer", "Reviewer", "Reviewer-2"]
@@ -732,7 +749,7 @@ def test_countersign_warns_when_the_installer_is_not_trusted(cli, tmp_path, monk
     new_identity(cli, "Σοφία Παπαδοπούλου", "GR-5")
     result = cli("countersign", first, "--out", tmp_path / "c.pdf")
     assert result.exit_code == 0
-    assert "NOT trusted" in result.stdout and "not in the trust store" in result.stderr
+    assert "NOT trusted" in result.stdout and "not in your trust store" in result.stderr
 
 
 def test_countersign_refuses_unsigned_tampered_and_non_pdf(cli, tmp_path):

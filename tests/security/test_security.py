@@ -373,8 +373,9 @@ def test_verify_trusts_only_the_trust_store(cli, new_job, tmp_path, monkeypatch)
     text = cli("verify", pdf)
     assert text.exit_code == 1 and "not trusted" in text.stdout
     assert "not in your trust store" in text.stderr
-    # Everything else holds, so it passes only when the reviewer says so, or trusts it.
-    assert cli("verify", pdf, "--allow-untrusted").exit_code == 0
+    # Everything else holds, so it passes only once the reviewer trusts that certificate
+    # (there is no option to let an untrusted signature pass).
+    assert cli("verify", pdf, "--allow-untrusted").exit_code == 2
     assert cli("verify", pdf, "--trust", signer_cert).exit_code == 0
     assert cli("verify", pdf).exit_code == 1  # --trust was for that call only
 

@@ -9,6 +9,7 @@ from typing import Annotated
 
 import typer
 
+from ..fingerprint import readable
 from .common import JsonOpt, emit_json, friendly
 
 identity_app = typer.Typer(
@@ -52,7 +53,8 @@ def _show(data: dict) -> None:
     typer.echo(f"registration: {data['registration'] or '-'}")
     if data.get("email"):
         typer.echo(f"e-mail:       {data['email']}")
-    typer.echo(f"fingerprint:  {data['fingerprint']}  (SHA-256 of the certificate)")
+    typer.echo(f"fingerprint:  {readable(data['fingerprint'])}  (SHA-256 of the "
+               "certificate)")
     typer.echo(f"key:          {data['key']}")
     typer.echo(f"valid:        {data['valid_from'][:10]} to {data['valid_until'][:10]}")
 
@@ -134,7 +136,7 @@ def export(
 
     me = export_certificate(out)
     typer.echo(f"certificate of {me.name} written to {out}")
-    typer.echo(f"fingerprint {me.fingerprint}")
+    typer.echo(f"fingerprint {readable(me.fingerprint)}")
 
 
 @identity_app.command()
@@ -179,16 +181,29 @@ def trust_add(
     label: Annotated[str | None, typer.Option("--name", help="Label to show in lists "
                                                              "(default: the name in it).")]
     = None,
+    authority: Annotated[bool, typer.Option(
+        "--authority", help="Trust it as a certificate authority: certificates it issued are "
+        "trusted too (it must be a CA: basicConstraints CA=true, keyCertSign).")] = False,
+    tsa: Annotated[bool, typer.Option(
+        "--tsa", help="Trust it as a timestamp authority, for document timestamps "
+        "('commission seal').")] = False,
 ) -> None:
-    """Trust a certificate: signatures made with it will check as trusted."""
+    """Trust a certificate: by default its own key only (signatures made with it)."""
+    from ..errors import UserError
     from ..report import trust
 
-    entry, is_new = trust.add(cert, label=label)
+    if authority and tsa:
+        raise UserError("trust add: give --authority or --tsa, not both (add the "
+                        "certificate twice for both roles)")
+    role = "authority" if authority else "tsa" if tsa else "signer"
+    entry, is_new = trust.add(cert, label=label, role=role)
     data = entry.as_json()
+    what = {"signer": "its own key", "authority": "certificates it issues (authority)",
+            "tsa": "document timestamps (timestamp authority)"}[role]
     verb = "now trusted" if is_new else "already trusted"
-    typer.echo(f"{verb}: {entry.label}")
+    typer.echo(f"{verb} for {what}: {entry.label}")
     typer.echo(f"  name {data['name']}, registration {data['registration'] or '-'}")
-    typer.echo(f"  fingerprint {entry.fingerprint}")
+    typer.echo(f"  fingerprint {readable(entry.fingerprint)}")
     typer.echo(f"  valid {data['valid_from'][:10]} to {data['valid_until'][:10]}")
     if is_new:
         typer.echo("check the fingerprint with its owner before relying on it")
@@ -197,7 +212,7 @@ def trust_add(
 @trust_app.command("list")
 @friendly
 def trust_list(as_json: JsonOpt = False) -> None:
-    """List trusted certificates."""
+    """List trusted certificates, with what each is trusted for."""
     from ..report import trust
 
     entries = trust.trusted()
@@ -208,8 +223,9 @@ def trust_list(as_json: JsonOpt = False) -> None:
         typer.echo("no trusted certificates yet: add one with 'commission trust add CERT.pem'")
     for e in entries:
         data = e.as_json()
-        typer.echo(f"{e.fingerprint[:16]}  {e.label}  (registration "
+        typer.echo(f"{e.label}  ({', '.join(e.roles)}; registration "
                    f"{data['registration'] or '-'}, until {data['valid_until'][:10]})")
+        typer.echo(f"  {readable(e.fingerprint)}")
 
 
 @trust_app.command("remove")
@@ -222,7 +238,7 @@ def trust_remove(
     from ..report import trust
 
     entry = trust.remove(fingerprint)
-    typer.echo(f"no longer trusted: {entry.label} ({entry.fingerprint[:16]})")
+    typer.echo(f"no longer trusted: {entry.label} ({readable(entry.fingerprint)})")
 
 
 # --------------------------------------------------------------------------- countersign

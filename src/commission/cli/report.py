@@ -141,9 +141,6 @@ def verify(
     trust: Annotated[
         list[Path] | None, typer.Option(help="Also trust this certificate, for this call.")
     ] = None,
-    allow_untrusted: Annotated[
-        bool, typer.Option(help="Pass when all else holds but the signer is not trusted.")
-    ] = False,
     checklist: Annotated[
         Path | None,
         typer.Option(help="The checklist the record must have been judged with (a file)."),
@@ -153,19 +150,27 @@ def verify(
     ] = False,
 ) -> None:
     """Check a record: signatures, the embedded record and every verdict (exit 0/1/2)."""
+    from ..fingerprint import readable
     from ..record import safe
 
     result = _verification(file, trust, checklist, strict)
-    ok = result.ok(allow_untrusted)
+    ok = result.ok()
     if as_json:
         emit_json(result.as_json())
     else:
         for s in result.signatures:
-            typer.echo(f"signature: {safe(s['signer'])} · {s['fingerprint'][:16]}… · "
+            typer.echo(f"signature: {safe(s['signer'])} · "
                        f"{'valid' if s['valid'] else 'INVALID'} · "
                        f"{'trusted' if s['trusted'] else 'not trusted'} · "
                        f"{'covers the whole file' if s['covers_whole'] else 'partial'} · "
-                       f"claimed time {safe(s['signing_time'])}")
+                       f"signing time {safe(s['signing_time'])} (claimed by the signer)")
+            typer.echo(f"  certificate SHA-256 {readable(s['fingerprint'])}")
+        for t in result.timestamps:
+            typer.echo(f"timestamp: {safe(t['tsa'])} · "
+                       f"{'valid' if t['valid'] else 'INVALID'} · "
+                       f"{'trusted' if t['trusted'] else 'not trusted'} · "
+                       f"time {safe(t['time'])} (attested by the timestamp authority)")
+            typer.echo(f"  certificate SHA-256 {readable(t['fingerprint'])}")
         typer.echo(f"embedded record: {'yes' if result.record_embedded else 'no'}; hash "
                    f"{'matches' if result.record_hash_match else 'DOES NOT match'} the pages")
         content = result.content
@@ -186,10 +191,11 @@ def verify(
             if not notice.startswith("custom checklist"):
                 typer.echo(f"notice: {safe(notice)}")
         typer.echo(f"job status in the record: {safe(result.job_status)}")
-        typer.echo("signing is offline: times are as the signer's computer claimed")
+        if not result.timestamps:
+            typer.echo("no document timestamp: signing times are as the signers' computers "
+                       "claimed ('commission seal' adds one once online)")
     if not ok:
-        typer.echo(f"verification failed: {safe(result.first_problem(allow_untrusted))}",
-                   err=True)
+        typer.echo(f"verification failed: {safe(result.first_problem())}", err=True)
         raise typer.Exit(1)
     if not as_json:
         typer.echo("verified")

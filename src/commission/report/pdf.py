@@ -18,6 +18,7 @@ from typing import Any
 from xml.sax.saxutils import escape
 
 from ..checks.evaluate import Result
+from ..fingerprint import readable
 from ..job import JobState
 from ..present import SIGN_CONVENTION, format_value
 from .form import SECTIONS, load_form  # noqa: F401  (load_form: the CLI's entry point)
@@ -259,7 +260,7 @@ def _signer_block(c: _Context) -> list:
         rows.append([_p("Installer", c.st["cell"]),
                      _p(f"{c.signer['name']}\n{c.signer.get('registration') or ''}".strip(),
                         c.st["cell"]),
-                     _p(_group(c.signer["fingerprint"][:16]) + " …", c.st["cell"]),
+                     _p(readable(c.signer["fingerprint"], groups=4), c.st["cell"]),
                      _p(f"digitally (PAdES), {c.when(c.generated_at)}; the signature "
                         "panel shows the signing time", c.st["cell"])])
     else:
@@ -275,7 +276,7 @@ def _signer_block(c: _Context) -> list:
         # The whole fingerprint on its own full-width line, in reading order for any text
         # extractor (a table cell would interleave with its neighbours).
         out.append(_p(f"Installer's certificate fingerprint (SHA-256): "
-                      f"{_group(c.signer['fingerprint'])}", c.st["small"]))
+                      f"{readable(c.signer['fingerprint'])}", c.st["small"]))
         if not c.stamp_reserved:
             out.append(_stamp_row(c))
     return out

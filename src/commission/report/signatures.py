@@ -27,14 +27,25 @@ Each signature is validated by pyHanko twice, with two different trust roots:
    Unsigned parts of the container that verifiers ignore (the zero padding of
    ``/Contents``, the SignedData digest list and version numbers) are checked for
    consistency too, so that no changed byte goes unreported.
-2. **Trust pass.** The same signature validated (difference analysis skipped)
-   against a ``ValidationContext`` whose trust roots are the local trust store
-   (``config_dir()/trust``) plus ``extra_trust``, and nothing else. ``trusted`` is
-   pyHanko's verdict that a path from the signer's certificate to one of those roots
-   exists and holds at the claimed time, for an intact, valid signature. A
-   certificate carried inside the PDF is only ever a path candidate, never a root,
-   so a PDF cannot make itself trusted; a stranger's key with a copied name fails,
-   because path building checks the root's signature, not its name.
+2. **Trust pass.** A trusted certificate vouches for its own key only: the signature
+   is trusted when its certificate's SHA-256 fingerprint is one the reviewer trusts as a
+   signer (``trust add CERT``, or ``--trust CERT`` for one call). Otherwise it is
+   trusted only through an authority the reviewer added with ``trust add --authority``
+   (a CA by basicConstraints and keyCertSign): pyHanko validates the path from the
+   signer's certificate to one of those roots, and nothing else, at the claimed time. A
+   certificate issued by a trusted non-CA certificate, or by a CA added as a plain
+   signer, is not trusted; a stranger's key with a copied name is not either (the
+   fingerprint differs). A certificate carried inside the PDF is only ever a path
+   candidate, never a root. EVERY signature must be trusted; the first untrusted one is
+   named in the problem line.
+
+Time (every signature): the claimed signing time (``/M``) must lie within the
+certificate's validity and not after this computer's present plus
+:data:`CLOCK_SKEW`; that it is not before the record's own creation time is checked by
+:func:`time_problems` once the record is read. Document timestamps (RFC 3161, added by
+``commission seal``) are validated against the TSA certificates trusted with ``trust add
+--tsa`` only; their time is reported as attested, and no signature may claim a time
+after the timestamp that covers it.
 
 Document-level rules on top of pyHanko's per-signature results:
 
@@ -61,8 +72,14 @@ from typing import Any
 
 from ..errors import UserError
 
-__all__ = ["NotAPdf", "SignatureInfo", "SignatureReport", "check_signatures", "open_pdf",
-           "one_line", "quiet_pyhanko"]
+__all__ = ["CLOCK_SKEW", "NotAPdf", "SignatureInfo", "SignatureReport", "TimestampInfo",
+           "check_signatures", "open_pdf", "one_line", "quiet_pyhanko", "time_problems"]
+
+# How far a claimed signing time may lie ahead of this computer's clock (or a signature
+# before the record it signs): computers' clocks disagree by minutes. Five minutes is
+# common practice (the default maximum clock skew of Kerberos implementations; RFC 4120
+# section 1.6 assumes clocks synchronised to within minutes; from memory).
+CLOCK_SKEW = dt.timedelta(minutes=5)
 
 
 class NotAPdf(UserError):
@@ -86,33 +103,54 @@ class SignatureInfo:
 
 
 @dataclass
+class TimestampInfo:
+    """A document timestamp (RFC 3161 token in a /DocTimeStamp field)."""
+
+    field: str
+    tsa: str
+    fingerprint: str
+    time: str | None  # attested by the TSA
+    valid: bool
+    trusted: bool
+
+    def as_json(self) -> dict[str, Any]:
+        return asdict(self)
+
+
+@dataclass
 class SignatureReport:
     signed: bool
     signatures: list[SignatureInfo] = field(default_factory=list)
     signature_valid: bool = False
     intact: bool = False
     trusted: bool = False
+    """Every signature (and document timestamp) is trusted."""
     problems: list[str] = field(default_factory=list)
     trust_note: str | None = None
-    """Why the first (installer's) signature is not trusted; None when it is."""
+    """Why the first signature that is not trusted is not; None when all are."""
+    timestamps: list[TimestampInfo] = field(default_factory=list)
 
-    def ok(self, *, allow_untrusted: bool = False) -> bool:
-        """Everything holds (and the installer's signature is trusted, unless allowed)."""
-        good = self.signed and self.signature_valid and self.intact and not self.problems
-        return good and (self.trusted or allow_untrusted)
+    def sound(self) -> bool:
+        """Signed, intact and valid, whoever signed it (trust aside)."""
+        return self.signed and self.signature_valid and self.intact and not self.problems
 
-    def first_reason(self, *, allow_untrusted: bool = False) -> str | None:
+    def ok(self) -> bool:
+        """Everything holds and every signature is trusted."""
+        return self.sound() and self.trusted
+
+    def first_reason(self) -> str | None:
         """One line saying why :meth:`ok` is False, or None."""
         if self.problems:
             return self.problems[0]
-        if not allow_untrusted and not self.trusted:
-            return self.trust_note or "the installer's signature is not trusted"
+        if not self.trusted:
+            return self.trust_note or "a signature is not trusted"
         return None
 
     def as_json(self) -> dict[str, Any]:
         return {
             "signed": self.signed,
             "signatures": [s.as_json() for s in self.signatures],
+            "timestamps": [t.as_json() for t in self.timestamps],
             "signature_valid": self.signature_valid,
             "intact": self.intact,
             "trusted": self.trusted,
@@ -254,18 +292,106 @@ def _claimed_time(es) -> dt.datetime | None:
 # --------------------------------------------------------------------------- the check
 
 
-def check_signatures(pdf_bytes: bytes, *, extra_trust: Iterable[Any] = ()) -> SignatureReport:
-    """Check every signature in ``pdf_bytes``; see the module docstring for the rules."""
-    reader, structure_problem, extended = _read(pdf_bytes)
+@dataclass
+class _Trust:
+    """What the reviewer trusts, by role (see :mod:`commission.report.trust`)."""
+
+    signers: dict[str, Any]  # fingerprint -> asn1 certificate (own key only)
+    authorities: list[Any]  # asn1 CA certificates added with --authority
+    tsa: dict[str, Any]  # fingerprint -> asn1 TSA certificate
+    tsa_authorities: list[Any]
+    entries: list[tuple[str, Any]]  # (label, cryptography certificate), for explanations
+
+    def explain(self, cert, signer: str, fp: str) -> str:
+        """Why a valid signature's certificate is not trusted, in one clause."""
+        from cryptography import x509 as _x509
+
+        from ..fingerprint import readable
+        from .identity import cert_name, fingerprint
+        from .trust import is_authority
+
+        mine = _x509.load_der_x509_certificate(cert.dump())
+        for label, entry in self.entries:
+            if fingerprint(entry) == fp:
+                continue
+            try:
+                mine.verify_directly_issued_by(entry)
+            except Exception:  # noqa: BLE001 — not issued by this entry
+                continue
+            if not is_authority(entry):
+                return (f"its certificate was issued by {label}, a trusted certificate that "
+                        "is not a certificate authority (it vouches for its own key only)")
+            return (f"its certificate was issued by {label}, a certificate authority you "
+                    "did not add with 'trust add --authority' (trusted for its own key only)")
+        for label, entry in self.entries:
+            if cert_name(entry) == signer:
+                return (f"certificate {readable(fp, 4)} is not the one you trust for "
+                        f"{signer} ({label}, {readable(fingerprint(entry), 4)}): same name, "
+                        "another key")
+        return (f"certificate {readable(fp, 4)} is not in your trust store (check its "
+                "fingerprint with its owner, then 'commission trust add CERT.pem')")
+
+
+def _trust(extra_trust: Iterable[Any]) -> _Trust:
+    import hashlib as _h
 
     from . import trust as trust_store
 
-    roots = []
-    for cert in [*trust_store.trusted_certificates(), *extra_trust]:
-        roots.append(_asn1_cert(cert))
+    def asn1(certs):
+        return [_asn1_cert(c) for c in certs]
 
+    entries = trust_store.trusted()
+    signer_certs = asn1([e.cert for e in entries if "signer" in e.roles]) + asn1(extra_trust)
+    tsa_certs = asn1([e.cert for e in entries if "tsa" in e.roles])
+    tsa_cas = asn1([e.cert for e in entries
+                    if "tsa" in e.roles and trust_store.is_authority(e.cert)])
+    labels = [(e.label, e.cert) for e in entries]
+    for cert in extra_trust:
+        crypt = _crypto_cert(cert)
+        labels.append((f"{_subject(_asn1_cert(cert))[0]} (--trust)", crypt))
+    return _Trust(signers={_h.sha256(c.dump()).hexdigest(): c for c in signer_certs},
+                  authorities=asn1(trust_store.trusted_certificates("authority")),
+                  tsa={_h.sha256(c.dump()).hexdigest(): c for c in tsa_certs},
+                  tsa_authorities=tsa_cas, entries=labels)
+
+
+def _crypto_cert(cert: Any):
+    from cryptography import x509 as _x509
+
+    return _x509.load_der_x509_certificate(_asn1_cert(cert).dump())
+
+
+def check_signatures(pdf_bytes: bytes, *, extra_trust: Iterable[Any] = ()) -> SignatureReport:
+    """Check every signature in ``pdf_bytes``; see the module docstring for the rules.
+    ``extra_trust``: certificates trusted as signers (own key only) for this call."""
+    reader, structure_problem, extended = _read(pdf_bytes)
+    trust = _trust(list(extra_trust))
     with quiet_pyhanko():
-        return _check(reader, roots, structure_problem, extended)
+        return _check(reader, trust, structure_problem, extended)
+
+
+def time_problems(report: SignatureReport, created_at: str | None) -> list[str]:
+    """Signatures claiming a time before the record was made (``created_at``, from the
+    signed record), allowing :data:`CLOCK_SKEW`."""
+    if not created_at:
+        return []
+    try:
+        made = dt.datetime.fromisoformat(created_at.replace("Z", "+00:00"))
+    except ValueError:
+        return [f"the record's creation time {created_at!r} cannot be read"]
+    out = []
+    for s in report.signatures:
+        if not s.signing_time:
+            continue
+        claimed = dt.datetime.fromisoformat(s.signing_time)
+        if claimed < made - CLOCK_SKEW:
+            out.append(f"signature '{s.field}' ({s.signer}) claims the signing time "
+                       f"{_when(claimed)}, before the record was made ({_when(made)})")
+    return out
+
+
+def _when(moment: dt.datetime) -> str:
+    return moment.astimezone(dt.UTC).strftime("%Y-%m-%d %H:%M:%S UTC")
 
 
 def _embedded(reader, problems: list[str]):
@@ -326,8 +452,8 @@ def _container_problem(es) -> str | None:
     return None
 
 
-def _check_one(es, roots, key_usage, now: dt.datetime, extended: bool,
-               problems: list[str], doc_problems: list[str]):
+def _check_one(es, trust: _Trust, key_usage, now: dt.datetime, extended: bool,
+               problems: list[str], doc_problems: list[str], untrusted_reasons: list[str]):
     """Both passes for one signature: (pyHanko status of the integrity pass, info)."""
     from pyhanko.sign.validation import SignatureCoverageLevel, validate_pdf_signature
     from pyhanko_certvalidator import ValidationContext
@@ -356,7 +482,12 @@ def _check_one(es, roots, key_usage, now: dt.datetime, extended: bool,
     # certvalidator does not check a trust anchor's own validity period, and in this
     # pass the signer's certificate is the anchor: check the period here
     validity = cert["tbs_certificate"]["validity"]
-    in_period = validity["not_before"].native <= moment <= validity["not_after"].native
+    not_before, not_after = validity["not_before"].native, validity["not_after"].native
+    in_period = not_before <= moment <= not_after
+    if claimed is not None and claimed > now + CLOCK_SKEW:
+        problems.append(f"{label} claims the signing time {_when(claimed)}, in the future "
+                        f"(now {_when(now)}; {int(CLOCK_SKEW.total_seconds() // 60)} minutes "
+                        "of clock skew allowed)")
     cert_ok = bool(status and status.trust_problem_indic is None
                    and status.validation_path is not None and in_period)
     if status is not None:
@@ -364,9 +495,12 @@ def _check_one(es, roots, key_usage, now: dt.datetime, extended: bool,
             problems.append(f"{label}: the signed bytes were altered (digest mismatch)")
         elif not crypto_ok:
             problems.append(f"{label}: the signature value does not verify")
-        elif not in_period:
-            problems.append(f"{label}: its certificate was not valid at the claimed "
-                            f"signing time {moment.isoformat()}")
+        elif moment < not_before:
+            problems.append(f"{label}: its certificate is not yet valid at the claimed "
+                            f"signing time {_when(moment)} (valid from {_when(not_before)})")
+        elif moment > not_after:
+            problems.append(f"{label}: its certificate had expired at the claimed signing "
+                            f"time {_when(moment)} (valid until {_when(not_after)})")
         elif not cert_ok:
             problems.append(f"{label}: its certificate was not usable at the claimed "
                             f"signing time {moment.isoformat()} "
@@ -380,16 +514,27 @@ def _check_one(es, roots, key_usage, now: dt.datetime, extended: bool,
     if container:
         doc_problems.append(f"{label}: {container}")
 
-    # pass 2: trust, with the trust store (+ extra_trust) as the only roots
+    # pass 2: trust. The signer's own certificate by fingerprint, else a path to an
+    # authority the reviewer added with --authority (and only those roots).
     trusted = False
-    if roots and intact and crypto_ok and cert_ok:
-        try:
-            tctx = ValidationContext(trust_roots=roots, allow_fetching=False, moment=moment)
-            tstatus = validate_pdf_signature(es, tctx, key_usage_settings=key_usage,
-                                             skip_diff=True)
-            trusted = bool(tstatus.trusted)
-        except Exception:
-            trusted = False
+    if intact and crypto_ok and cert_ok:
+        if fp in trust.signers:
+            trusted = True
+        elif trust.authorities:
+            try:
+                tctx = ValidationContext(trust_roots=trust.authorities, allow_fetching=False,
+                                         moment=moment)
+                tstatus = validate_pdf_signature(es, tctx, key_usage_settings=key_usage,
+                                                 skip_diff=True)
+                trusted = bool(tstatus.trusted)
+            except Exception:  # noqa: BLE001 — no path: not trusted
+                trusted = False
+        if not trusted:
+            try:
+                why = trust.explain(cert, signer, fp)
+            except Exception as exc:  # noqa: BLE001
+                why = f"no trusted certificate vouches for it ({one_line(exc)})"
+            untrusted_reasons.append(f"{label} is not trusted: {why}")
     info = SignatureInfo(
         field=name, signer=signer, registration=registration, fingerprint=fp,
         valid=intact and crypto_ok and cert_ok, intact=intact, trusted=trusted,
@@ -398,7 +543,49 @@ def _check_one(es, roots, key_usage, now: dt.datetime, extended: bool,
     return status, info
 
 
-def _check(reader, roots, structure_problem: str | None, extended: bool) -> SignatureReport:
+def _timestamp(es, trust: _Trust, extended: bool) -> tuple[Any, TimestampInfo, str | None]:
+    """(pyHanko status, info, problem or None) of one document timestamp."""
+    from pyhanko.sign.validation import validate_pdf_timestamp
+    from pyhanko_certvalidator import ValidationContext
+
+    del extended  # coverage of the last timestamp is a document rule (see _check)
+    cert = es.signer_cert
+    tsa, _ = _subject(cert)
+    fp = hashlib.sha256(cert.dump()).hexdigest()
+    label = f"document timestamp '{es.field_name}' ({tsa})"
+    # integrity: the TSA's own certificate as the only root
+    status = validate_pdf_timestamp(es, ValidationContext(
+        trust_roots=[cert], allow_fetching=False))
+    attested = status.timestamp
+    valid = bool(status.intact and status.valid and status.trusted)
+    trusted = False
+    if valid:
+        roots = [trust.tsa[fp]] if fp in trust.tsa else trust.tsa_authorities
+        if roots:
+            try:
+                tstatus = validate_pdf_timestamp(es, ValidationContext(
+                    trust_roots=roots, allow_fetching=False), skip_diff=True)
+                trusted = bool(tstatus.trusted)
+            except Exception:  # noqa: BLE001 — no path: not trusted
+                trusted = False
+    problem = None
+    if not status.intact:
+        problem = f"{label}: the timestamped bytes were altered"
+    elif not valid:
+        problem = f"{label} does not verify ({one_line(status.trust_problem_indic or '')})"
+    elif not trusted:
+        from ..fingerprint import readable
+
+        problem = (f"{label} is not trusted: timestamp authority certificate "
+                   f"{readable(fp, 4)} was not added with 'commission trust add --tsa'")
+    info = TimestampInfo(field=es.field_name, tsa=tsa, fingerprint=fp,
+                         time=attested.isoformat() if attested else None,
+                         valid=valid, trusted=trusted)
+    return status, info, problem
+
+
+def _check(reader, trust: _Trust, structure_problem: str | None,
+           extended: bool) -> SignatureReport:
     from pyhanko.sign.diff_analysis import ModificationLevel
     from pyhanko.sign.validation import SignatureCoverageLevel
     from pyhanko.sign.validation.status import DiffResult
@@ -423,11 +610,12 @@ def _check(reader, roots, structure_problem: str | None, extended: bool) -> Sign
     statuses = []
     key_usage = _key_usage()
     now = dt.datetime.now(dt.UTC)
+    untrusted: list[str] = []  # one line per signature that is not trusted
 
     for es in sigs:
         try:
-            status, info = _check_one(es, roots, key_usage, now, extended, problems,
-                                      doc_problems)
+            status, info = _check_one(es, trust, key_usage, now, extended, problems,
+                                      doc_problems, untrusted)
         except Exception as exc:  # a container too odd to judge counts as invalid
             problems.append(f"signature '{es.field_name}' cannot be checked: {one_line(exc)}")
             status, info = None, SignatureInfo(
@@ -437,12 +625,48 @@ def _check(reader, roots, structure_problem: str | None, extended: bool) -> Sign
         statuses.append(status)
         infos.append(info)
 
+    # ----- document timestamps (seal): attested times, trusted TSAs only
+    stamps: list[TimestampInfo] = []
+    stamp_status: dict[str, Any] = {}
+    for es in sorted(doc_timestamps, key=lambda es: es.signed_revision):
+        try:
+            tstatus, tinfo, tproblem = _timestamp(es, trust, extended)
+        except Exception as exc:  # noqa: BLE001 — an odd token counts as invalid
+            problems.append(f"document timestamp '{es.field_name}' cannot be checked: "
+                            f"{one_line(exc)}")
+            continue
+        stamps.append(tinfo)
+        stamp_status[es.field_name] = tstatus
+        if tproblem:
+            (untrusted if tinfo.valid and not tinfo.trusted else problems).append(tproblem)
+        if tinfo.time:
+            attested = dt.datetime.fromisoformat(tinfo.time)
+            for other, oinfo in zip(sigs, infos, strict=True):
+                if other.signed_revision < es.signed_revision and oinfo.signing_time and \
+                        dt.datetime.fromisoformat(oinfo.signing_time) > attested + CLOCK_SKEW:
+                    problems.append(f"signature '{oinfo.field}' ({oinfo.signer}) claims the "
+                                    f"signing time {oinfo.signing_time}, after the document "
+                                    f"timestamp that covers it ({tinfo.time})")
+
     # ----- document-level rules
-    later_fields = [{es.field_name for es in sigs[i + 1:]} for i in range(len(sigs))]
+    # every signature and timestamp in revision order; the last must cover the whole file
+    order = sorted(sigs + [es for es in doc_timestamps if es.field_name in stamp_status],
+                   key=lambda es: es.signed_revision)
+    last = order[-1] if order else None
+    if last is not None and last.sig_object_type == "/DocTimeStamp":
+        from pyhanko.sign.validation import SignatureCoverageLevel as _Cov
+
+        tstatus = stamp_status[last.field_name]
+        if extended or tstatus.coverage != _Cov.ENTIRE_FILE:
+            doc_problems.append(f"the file was changed or extended after the last "
+                                f"timestamp ('{last.field_name}'): it does not cover the "
+                                "whole file")
+    later_fields = [{o.field_name for o in order if o.signed_revision > es.signed_revision}
+                    for es in sigs]
     for i, (status, info) in enumerate(zip(statuses, infos, strict=True)):
         if status is None:
             continue
-        if i == len(sigs) - 1:  # the last signature
+        if sigs[i] is last:  # the last signature, nothing after it
             if not info.covers_whole:
                 doc_problems.append(f"the file was changed or extended after the last "
                                     f"signature ('{info.field}'): it does not cover the "
@@ -492,17 +716,18 @@ def _check(reader, roots, structure_problem: str | None, extended: bool) -> Sign
     problems = list(dict.fromkeys([*problems, *doc_problems]))
     signature_valid = all(s.valid for s in infos)
     intact = all(s.intact for s in infos) and not doc_problems
-    first_info = infos[0]
     # an unreadable signature cannot be placed in order, so nothing is "first" for sure
-    trusted = first_info.trusted and first_info.valid and not unreadable
+    trusted = all(i.trusted and i.valid for i in infos) and not unreadable \
+        and not untrusted and all(t.trusted for t in stamps)
     note = None
     if not trusted:
-        if not first_info.valid:
-            note = f"the installer's signature ('{first_info.field}') is not valid"
+        invalid = [i for i in infos if not i.valid]
+        if invalid:
+            note = f"signature '{invalid[0].field}' ({invalid[0].signer}) is not valid"
+        elif untrusted:
+            note = untrusted[0]
         else:
-            note = (f"the installer's signature ('{first_info.field}') by {first_info.signer} "
-                    f"is not trusted: certificate {first_info.fingerprint[:16]}… is not in "
-                    "the trust store (add it with 'commission trust add CERT.pem')")
+            note = "a signature cannot be read, so it cannot be trusted"
     return SignatureReport(signed=True, signatures=infos, signature_valid=signature_valid,
                            intact=intact, trusted=trusted, problems=problems,
-                           trust_note=note)
+                           trust_note=note, timestamps=stamps)

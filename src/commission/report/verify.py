@@ -33,6 +33,7 @@ class Verification:
     content: rec.ContentResult | None = None
     content_ok: bool = False
     notices: list[str] = field(default_factory=list)
+    timestamps: list[dict[str, Any]] = field(default_factory=list)
 
     def as_json(self) -> dict[str, Any]:
         out = {k: v for k, v in self.__dict__.items() if k not in ("record", "content")}
@@ -44,19 +45,21 @@ class Verification:
                        unverified_import=c.unverified_import)
         return out
 
-    def ok(self, allow_untrusted: bool = False) -> bool:
+    def ok(self) -> bool:
+        """Every signature valid and trusted, the file intact, the record as signed."""
         return (self.signed and self.signature_valid and self.intact and self.record_embedded
-                and self.record_hash_match and self.content_ok
-                and (self.trusted or allow_untrusted))
+                and self.record_hash_match and self.content_ok and self.trusted
+                and not self.problems)
 
-    def first_problem(self, allow_untrusted: bool = False) -> str | None:
-        if self.ok(allow_untrusted):
+    def first_problem(self) -> str | None:
+        if self.ok():
             return None
         if self.problems:
             return self.problems[0]
-        if not self.trusted and not allow_untrusted:
-            return ("the installer's certificate is not in your trust store (add it with "
-                    "'commission trust add CERT', or give --trust CERT)")
+        if not self.trusted:
+            return self.trust_note or ("a signature is not trusted (add its certificate "
+                                       "with 'commission trust add CERT', or give --trust "
+                                       "CERT)")
         return "verification failed"
 
 
@@ -112,9 +115,12 @@ def verify(pdf_bytes: bytes, extra_trust: list[Any] | None = None, checklist=Non
                      "signing_time": s.signing_time} for s in report.signatures],
         signature_valid=report.signature_valid, intact=report.intact, trusted=report.trusted,
         problems=list(report.problems), trust_note=report.trust_note,
+        timestamps=[t.as_json() for t in report.timestamps],
     )
     if not report.signed:
         v.problems.insert(0, "the PDF carries no signature")
+    elif not report.trusted and report.trust_note:
+        v.problems.append(report.trust_note)  # every signature must be trusted
     files = attachments(reader)
     payload = files.get(rec.RECORD_NAME)
     if payload is None:
@@ -139,6 +145,30 @@ def verify(pdf_bytes: bytes, extra_trust: list[Any] | None = None, checklist=Non
     v.notices = list(content.notices)
     v.verdicts_match = content.record is not None and not content.mismatches and \
         content.problem is None
+    if content.record is not None:
+        _installer_and_times(v, report, content.record)
     if content.problem:
         v.problems.append(content.problem)
     return v
+
+
+def _installer_and_times(v: Verification, report, record: rec.AnyRecord) -> None:
+    """The first signature is made with exactly the certificate the record declares, and
+    no signature claims a time before the record was made (point 5 and 6 of the rules in
+    DEVELOPERS.md, "Trust and time")."""
+    from ..fingerprint import readable
+    from .signatures import time_problems
+
+    declared = record.installer_certificate_sha256
+    if declared is None:
+        v.notices.append(f"this record ({record.format}) declares no installer certificate: "
+                         "the check that the first signature uses it is not available")
+    elif report.signatures and report.signatures[0].fingerprint != declared:
+        first = report.signatures[0]
+        v.problems.append(f"the first signature ('{first.field}', {first.signer}) was "
+                             f"made with certificate {readable(first.fingerprint, 4)}, not "
+                             f"the installer's certificate {readable(declared, 4)} that the "
+                             "record declares")
+    created = record.signing.created_at if record.signing is not None else \
+        record.generated_at
+    v.problems.extend(time_problems(report, created))
