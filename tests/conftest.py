@@ -3,6 +3,11 @@
 from __future__ import annotations
 
 import os
+
+# One BLAS thread, as the package itself sets (see src/commission/__init__.py): set here too,
+# before any test module imports numpy ahead of commission.
+for _name in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
+    os.environ.setdefault(_name, "1")
 import shutil
 import subprocess
 import sys

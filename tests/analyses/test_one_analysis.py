@@ -165,3 +165,89 @@ def test_other_shaped_files_agree_between_analyse_and_check(cli, walked, tmp_pat
     # 38 + 1.2·42 = 88.4 °C, over the 85 °C limit even at the lower bound: fail
     assert verdicts["clamp.capture"] == "pass"
     assert verdicts["heatsink.soak_log"] == "fail"
+
+
+def _capture_file(path, *, alpha_deg=0.0, sign=1.0, shift_deg=0.0, clip=None, ms=False):
+    """A 0.4 s capture of an 18 Ω element fired at ``alpha_deg`` after each voltage zero,
+    seen by a clamp facing ``sign`` on a conductor fed from a phase ``shift_deg`` away;
+    optionally clipped at a fraction of its peak, or written in ms and mA."""
+    rate, f = 10000.0, 50.0
+    t = np.arange(int(0.4 * rate)) / rate
+    th = 2 * np.pi * f * t + 0.4
+    own = th - math.radians(shift_deg)
+    ipk = math.sqrt(2) * 230.0 / 18.0
+    i = sign * np.where(np.mod(own, np.pi) >= math.radians(alpha_deg), ipk * np.sin(own), 0.0)
+    if clip is not None:
+        i = np.clip(i, -clip * ipk, clip * ipk)
+    v = math.sqrt(2) * 230.0 * np.sin(th)
+    if ms:
+        rows = "".join(f"{a * 1000:.4f},{b:.3f},{c * 1000:.2f}\n" for a, b, c in
+                       zip(t, v, i, strict=True))
+        path.write_text("time [ms],voltage [V],current [mA]\n" + rows, encoding="utf-8")
+    else:
+        rows = "".join(f"{a:.6f},{b:.3f},{c:.5f}\n" for a, b, c in zip(t, v, i, strict=True))
+        path.write_text("time_s,voltage_v,current_a\n" + rows, encoding="utf-8")
+    return path
+
+
+def _soak_file(path, minutes):
+    """The two-constant soak of `_test_files`, logged for ``minutes``."""
+    ts = np.arange(0.0, minutes * 60.0 + 1, 20.0)
+    rng = np.random.default_rng(12)
+    y = (24 + 30 * (1 - np.exp(-ts / 420)) + 12 * (1 - np.exp(-ts / 3000))
+         + rng.normal(0, .1, ts.size))
+    path.write_text("time_s,temp_c\n" + "".join(
+        f"{a:.0f},{b:.3f}\n" for a, b in zip(ts, y, strict=True)), encoding="utf-8")
+    return path
+
+
+# Each case replaces the demo's files with files shaped like those of the acceptance
+# tests (tests/analyses/test_capture.py, test_soak.py): the expected verdicts there come
+# from closed forms; here only the agreement of the three paths is asserted, plus the
+# verdict the closed-form tests established, so a path that drifts cannot hide.
+CASES = {
+    "reversed-full-soak30": (
+        {"clamp.capture": dict(sign=-1.0)}, "full output, PV at zero", 30,
+        {"clamp.capture": "fail"}),
+    "other-phase-half-soak60": (
+        {"clamp.capture": dict(alpha_deg=90.0, shift_deg=120.0)},
+        "forced part output, PV at zero", 60, {"clamp.capture": "fail"}),
+    "clipped-full": (
+        {"clamp.capture": dict(clip=0.9)}, "full output, PV at zero", None,
+        {"clamp.capture": "review"}),
+    "regulating": (
+        {"clamp.capture": dict(alpha_deg=100.0)}, "regulating", None,
+        {"clamp.capture": "review"}),
+    "ms-mA-columns": (
+        {"clamp.capture": dict(alpha_deg=60.0, ms=True)}, "forced part output, PV at zero",
+        None, {"clamp.capture": "pass"}),
+}
+
+
+@pytest.mark.slow
+@pytest.mark.parametrize("case", sorted(CASES))
+def test_acceptance_shaped_files_agree_between_analyse_and_check(cli, walked, tmp_path,
+                                                                  case):
+    """The files of the acceptance tests (reversed, other phase at 50 %, clipped at 90 %,
+    regulating, ms/mA columns; two-constant soaks logged 30 and 60 minutes) give the same
+    figures, verdicts and reasons from `analyse --json` and from their checklist items."""
+    captures, state, soak_minutes, expected = CASES[case]
+    replace = {"clamp.capture.state: full output, PV at zero": f"clamp.capture.state: {state}"}
+    paths = {}
+    for item_id, kwargs in captures.items():
+        paths[item_id] = _capture_file(tmp_path / f"{case}.csv", **kwargs)
+        replace[DEMO_FILES[item_id]] = str(paths[item_id])
+    if soak_minutes is not None:
+        paths["heatsink.soak_log"] = _soak_file(tmp_path / f"soak{soak_minutes}.csv",
+                                                soak_minutes)
+        replace[DEMO_FILES["heatsink.soak_log"]] = str(paths["heatsink.soak_log"])
+    _, results = walked(replace)
+    for item_id, path in paths.items():
+        data = _compare(cli, item_id, path, results[item_id],
+                        state if item_id == "clamp.capture" else None)
+        if item_id in expected:
+            assert data["verdict"] == expected[item_id], (item_id, data["reason"])
+        if item_id == "heatsink.soak_log":
+            # true maximum 24 + 42 = 66 °C → 88.4 °C at the demo's worst case, over the
+            # 85 °C limit: a short log may be review or fail, never pass
+            assert data["verdict"] != "pass", data["reason"]

