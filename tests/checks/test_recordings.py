@@ -91,6 +91,7 @@ def _soak(path, t_inf, tau_s, minutes, t0=24.0):
     path.write_text("\n".join(lines) + "\n")
 
 
+@pytest.mark.slow
 def test_soak_that_will_overheat_fails_and_blocks_ready(demo_job):
     # T∞ = 110 °C with τ = 20 min; a 30-minute log stays below the 85 °C limit throughout.
     _soak(demo_job.files / "hot.csv", t_inf=110.0, tau_s=1200.0, minutes=30)
@@ -110,6 +111,7 @@ def test_soak_too_short_is_review(demo_job):
     assert data["status"] == "incomplete"
 
 
+@pytest.mark.slow
 def test_weak_element_heating_fails(demo_job):
     data = demo_job({"water.heat.end: 44.9 °C": "water.heat.end: 38.5 °C"})
     heat = _item(data, "water.heat.end")

@@ -191,6 +191,7 @@ def test_swapped_and_reversed_clamps_fail_with_instructions(demo3):
     assert data["status"] == "ready"  # the capture item is not critical: known-load tests are
 
 
+@pytest.mark.slow
 def test_one_voltage_capture_says_the_sequence_is_assumed(demo3):
     """1 V + 3 I: placed from the inferred phases, and the reason says the sequence was
     assumed; on a site recorded as L1-L3-L2 the same capture is only a review."""
@@ -202,6 +203,7 @@ def test_one_voltage_capture_says_the_sequence_is_assumed(demo3):
     assert cap["verdict"] == "review" and "capture all three voltages" in cap["reason"]
 
 
+@pytest.mark.slow
 def test_load_on_one_phase_leaves_other_clamps_to_known_load_tests(demo3):
     """A single-phase diverter on L2 at full output: clamps 1 and 3 carry no load."""
     _capture_3ph(demo3.dir / "files" / "clamp-capture-3ph.csv", loads=(0.0, 2500.0, 0.0))
@@ -212,6 +214,7 @@ def test_load_on_one_phase_leaves_other_clamps_to_known_load_tests(demo3):
         cap["reason"]
 
 
+@pytest.mark.slow
 def test_regulation_judged_on_the_billed_quantity(demo3):
     """The demo log: phases at -420/+610/-205 W, sum near zero. Judged on the sum (a meter
     that nets the phases) it passes; a per-phase meter with the diverter on L2 fails."""
@@ -228,6 +231,7 @@ def test_regulation_judged_on_the_billed_quantity(demo3):
     assert _item(data, "modes.target")["verdict"] == "pass"
 
 
+@pytest.mark.slow
 def test_broken_capture_is_a_review_naming_the_file(demo3):
     """A capture with only voltage_l2_v of the other phases: one line, the item not lost."""
     (demo3.dir / "files" / "clamp-capture-3ph.csv").write_text(

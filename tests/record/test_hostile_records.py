@@ -153,6 +153,7 @@ def test_nan_reading(cli, forge, tmp_path):
     _refused(cli, path, r"NaN", tmp_path)
 
 
+@pytest.mark.slow
 def test_infinite_reading(cli, forge, tmp_path):
     def inf(payload: bytes) -> bytes:
         return payload.replace(b'"value":0.024', b'"value":1e999', 1)
@@ -161,6 +162,7 @@ def test_infinite_reading(cli, forge, tmp_path):
     _refused(cli, path, r"infinity", tmp_path)
 
 
+@pytest.mark.slow
 def test_the_nan_payload_is_really_in_the_file(forge):
     """The attack step above changes the bytes it claims to (the reading is there)."""
     from commission.report.signatures import open_pdf
@@ -173,6 +175,7 @@ def test_the_nan_payload_is_really_in_the_file(forge):
 
 # -------------------------------------------------------------------------- shape
 
+@pytest.mark.slow
 def test_unknown_item(cli, forge, tmp_path):
     def change(data):
         e = dict(_entry(data, "protection.rcd.t1"))
@@ -183,6 +186,7 @@ def test_unknown_item(cli, forge, tmp_path):
              tmp_path)
 
 
+@pytest.mark.slow
 def test_wrong_type_for_a_reading(cli, forge, tmp_path):
     def change(data):
         _entry(data, "protection.rcd.t1")["value"] = "0.024"
@@ -190,6 +194,7 @@ def test_wrong_type_for_a_reading(cli, forge, tmp_path):
     _refused(cli, forge.pdf(change), r"protection\.rcd\.t1.*not a reading answer", tmp_path)
 
 
+@pytest.mark.slow
 def test_wrong_type_for_a_confirm(cli, forge, tmp_path):
     def change(data):
         _entry(data, "protection.rcd.button")["value"] = "yes"
@@ -198,6 +203,7 @@ def test_wrong_type_for_a_confirm(cli, forge, tmp_path):
              tmp_path)
 
 
+@pytest.mark.slow
 def test_deep_nesting(cli, forge, tmp_path):
     def change(data):
         value = 1.0
@@ -208,6 +214,7 @@ def test_deep_nesting(cli, forge, tmp_path):
     _refused(cli, forge.pdf(change), r"nested more than 16 levels", tmp_path)
 
 
+@pytest.mark.slow
 def test_duplicate_keys(cli, forge, tmp_path):
     """RFC 8259 §4: with duplicate names readers differ; here the second status would
     win in Python's reader."""
@@ -217,6 +224,7 @@ def test_duplicate_keys(cli, forge, tmp_path):
     _refused(cli, forge.pdf(payload_change=dup), r"field 'status': duplicate key", tmp_path)
 
 
+@pytest.mark.slow
 def test_unknown_field(cli, forge, tmp_path):
     def change(data):
         data["job"]["note"] = "trust me"
@@ -224,6 +232,7 @@ def test_unknown_field(cli, forge, tmp_path):
     _refused(cli, forge.pdf(change), r"field job\.note: unknown field", tmp_path)
 
 
+@pytest.mark.slow
 def test_oversized_text_answer(cli, forge, tmp_path):
     def change(data):
         e = _entry(data, "install.inverter")
@@ -232,6 +241,7 @@ def test_oversized_text_answer(cli, forge, tmp_path):
     _refused(cli, forge.pdf(change), r"entries\[\d+\]\.raw: .*at most 4000", tmp_path)
 
 
+@pytest.mark.slow
 def test_terminal_escape_in_a_text_answer(cli, forge, tmp_path):
     """ECMA-48 CSI 'clear screen' and an OSC title in a text answer: refused, and the
     refusal prints the character escaped, never raw."""
@@ -243,6 +253,7 @@ def test_terminal_escape_in_a_text_answer(cli, forge, tmp_path):
              r"\\x1b", tmp_path)
 
 
+@pytest.mark.slow
 def test_c1_control_in_a_detail(cli, forge, tmp_path):
     def change(data):
         data["job"]["site"] = "Larch\u009bHouse"  # C1 CSI
@@ -251,6 +262,7 @@ def test_c1_control_in_a_detail(cli, forge, tmp_path):
              tmp_path)
 
 
+@pytest.mark.slow
 def test_a_folder_in_a_file_name(cli, forge, tmp_path):
     def change(data):
         data["files"][0]["name"] = "/home/someone/captures/clamp.csv"
@@ -271,6 +283,7 @@ def _weaken(text: str) -> str:
     return text[:start] + block + text[end:]
 
 
+@pytest.mark.slow
 def test_weakened_checklist_claiming_the_shipped_hash(cli, forge, tmp_path):
     def change(data):
         data["checklist"]["text"] = _weaken(data["checklist"]["text"])  # sha256 kept
@@ -278,6 +291,7 @@ def test_weakened_checklist_claiming_the_shipped_hash(cli, forge, tmp_path):
     _refused(cli, forge.pdf(change), r"checklist: the embedded text hashes to", tmp_path)
 
 
+@pytest.mark.slow
 def test_weakened_checklist_claiming_the_shipped_version(cli, forge, tmp_path):
     def change(data):
         text = _weaken(data["checklist"]["text"])
@@ -288,6 +302,7 @@ def test_weakened_checklist_claiming_the_shipped_version(cli, forge, tmp_path):
              tmp_path)
 
 
+@pytest.mark.slow
 def test_alias_bomb_in_the_embedded_checklist(cli, forge, tmp_path):
     def change(data):
         text = data["checklist"]["text"] + BOMB
@@ -297,6 +312,7 @@ def test_alias_bomb_in_the_embedded_checklist(cli, forge, tmp_path):
     _refused(cli, forge.pdf(change), r"YAML nodes through aliases", tmp_path)
 
 
+@pytest.mark.slow
 def test_alias_bomb_in_a_local_checklist(cli, forge, tmp_path):
     """A billion-laughs file named with --checklist, and validated: refused (exit 2,
     bad input) without being expanded."""
@@ -310,6 +326,7 @@ def test_alias_bomb_in_a_local_checklist(cli, forge, tmp_path):
         assert len(result.stderr.splitlines()) == 1
 
 
+@pytest.mark.slow
 def test_named_checklist_must_be_the_one_used(cli, forge, tmp_path):
     """--checklist FILE: the shipped file passes; any other checklist fails."""
     path = forge.pdf()
@@ -326,6 +343,7 @@ def test_named_checklist_must_be_the_one_used(cli, forge, tmp_path):
 
 # -------------------------------------------------------------------------- raw text
 
+@pytest.mark.slow
 def test_raw_text_that_does_not_match_the_stored_value(cli, forge, tmp_path):
     """The typed text says 350 ms; the stored value says 24 ms (and so does the verdict)."""
     def change(data):
@@ -335,6 +353,7 @@ def test_raw_text_that_does_not_match_the_stored_value(cli, forge, tmp_path):
              tmp_path)
 
 
+@pytest.mark.slow
 def test_raw_choice_that_does_not_match(cli, forge, tmp_path):
     def change(data):
         _entry(data, "supply.earthing")["raw"] = "TT"
@@ -343,6 +362,7 @@ def test_raw_choice_that_does_not_match(cli, forge, tmp_path):
              tmp_path)
 
 
+@pytest.mark.slow
 def test_altered_attachment(cli, forge, tmp_path):
     """A file whose declared size is changed (its bytes and SHA-256 left alone)."""
     def change(data):
@@ -365,12 +385,14 @@ def _flip_t1(data):
             v["reason"] = "too slow"
 
 
+@pytest.mark.slow
 def test_verdict_changed_under_the_same_check_logic_version(cli, forge, tmp_path):
     _refused(cli, forge.pdf(_flip_t1), r"differ from the readings under the same check-logic "
              r"version \d+, first protection\.rcd\.t1: recorded fail, recomputed pass",
              tmp_path)
 
 
+@pytest.mark.slow
 def test_ready_while_a_critical_item_fails_is_refused_whatever_the_version(cli, forge,
                                                                           tmp_path):
     """Safety: another check-logic version may judge differently, but a record that says
@@ -383,6 +405,7 @@ def test_ready_while_a_critical_item_fails_is_refused_whatever_the_version(cli, 
              r"protection\.rcd\.t1 is fail", tmp_path)
 
 
+@pytest.mark.slow
 def test_other_check_logic_version_is_a_notice_and_strict_fails(cli, forge, tmp_path):
     """A record judged by another check-logic version, where an item differs: a notice
     with both verdicts and both versions (exit 0); --strict makes it a failure."""

@@ -144,6 +144,7 @@ def test_a_record_of_the_previous_release_imports(cli, tmp_path):
 
 # ------------------------------------------------------------------- custom checklist
 
+@pytest.mark.slow
 def test_custom_checklist_verifies_listing_its_differences(cli, demo, tmp_path, monkeypatch):
     """A site's own checklist (own version): the 1×IΔn trip time made non-critical with its
     trip-time check taken off, one item added. verify passes and lists exactly these
@@ -245,6 +246,7 @@ def test_differences_name_params_inputs_and_fields():
 
 # ------------------------------------------------------------------- unverified import
 
+@pytest.mark.slow
 def test_unverified_import_is_marked_everywhere(cli, demo, tmp_path):
     """Without the installer's certificate the record does not verify: import refuses;
     --unverified imports it, and jobs, show, report page 1 and the new record say so."""

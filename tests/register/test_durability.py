@@ -532,6 +532,7 @@ def _ready_read_only(folder: Path) -> None:
                     "register cannot be made without root")
 
 
+@pytest.mark.slow
 def test_read_only_register_reads_and_refuses_writes(cli, ro_folder, as_nobody):
     reg = ro_folder / "reg.sqlite3"
     created = cli("new", "--checklist", "diverter-1ph", "--site", "Larch House",

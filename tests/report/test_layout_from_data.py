@@ -147,6 +147,7 @@ def test_own_checklist_renders_summary_homeowner_findings_and_chart(own_record):
     assert frames, "no chart frame drawn"
 
 
+@pytest.mark.slow
 def test_demo_page_one_tells_the_truth(demo_record):
     """Page 1 of the demo (pdftotext) names every review item, the next inspection date and
     the installer's certificate fingerprint (computed here with cryptography from the
@@ -186,6 +187,7 @@ def test_demo_page_one_tells_the_truth(demo_record):
         assert name in everything, name
 
 
+@pytest.mark.slow
 def test_no_item_id_leads_a_row(demo_record):
     """pdfplumber words: every item id printed in the results sits under its prompt (some
     other words directly above it in the same cell), never first in its row."""
@@ -235,6 +237,7 @@ def test_forms_validate_show_schema(cli, tmp_path):
     assert "homeowner" in json.dumps(schema["properties"]["sections"])
 
 
+@pytest.mark.slow
 def test_no_text_below_8_pt(demo_record, cli, tmp_path):
     """pdfplumber's character sizes on every page of the demo record and the paper form."""
     import pdfplumber

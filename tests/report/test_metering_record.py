@@ -6,6 +6,8 @@ from __future__ import annotations
 
 import subprocess
 
+import pytest
+
 from conftest import need_tool
 
 
@@ -33,6 +35,7 @@ def test_demo_record_shows_metering_chart_flicker_and_accuracies(demo_record):
         in flat
 
 
+@pytest.mark.slow
 def test_metering_chart_marks_lie_inside_its_frame(demo_record):
     """pdfplumber: the page holding the metering chart has a plot frame, and the marks drawn
     in the plot area (the points) sit inside it."""

@@ -5,6 +5,8 @@ from __future__ import annotations
 import hashlib
 import subprocess
 
+import pytest
+
 from conftest import need_tool
 
 PASS = "kettle larch loft 1907"
@@ -44,6 +46,7 @@ def test_report_refuses_an_existing_signed_file_without_force(cli, new_job, tmp_
     assert "Signature is Valid" in shown.stdout, shown.stdout
 
 
+@pytest.mark.slow
 def test_force_keeps_a_signed_record_aside_when_the_new_one_is_unsigned(cli, new_job,
                                                                         tmp_path, monkeypatch):
     """Reference: the kept copy is byte-identical to the signed file (SHA-256) and pdfsig

@@ -154,6 +154,7 @@ def test_not_a_pdf_exits_2(cli, tmp_path):
     assert result.stderr.startswith("error:")
 
 
+@pytest.mark.slow
 def test_resigned_with_another_key_is_untrusted(cli, demo, tmp_path, monkeypatch):
     """A record altered and re-signed with a stranger's key (same name, new key pair) is
     reported untrusted: exit 1."""
@@ -185,6 +186,7 @@ def test_resigned_with_another_key_is_untrusted(cli, demo, tmp_path, monkeypatch
     assert data["signatures"][0]["trusted"] is False
 
 
+@pytest.mark.slow
 def test_printed_verdict_contradicting_reading_is_caught(cli, demo, tmp_path, monkeypatch):
     """Forge the verdict snapshot (rcd trip time printed as pass for 350 ms) and sign it
     with the trusted key: the re-evaluation from raw entries catches it."""
@@ -270,6 +272,7 @@ def _without_local_names(show: dict) -> dict:
     return show
 
 
+@pytest.mark.slow
 def test_import_reproduces_show_json(cli, demo, tmp_path, monkeypatch):
     monkeypatch.setenv("COMMISSION_HOME", str(demo["folder"]))
     original = cli("show", demo["job"], "--json", "--register", demo["register"])
@@ -316,6 +319,7 @@ def test_every_answered_value_is_printed(demo, monkeypatch):
     assert checked > 40
 
 
+@pytest.mark.slow
 def test_large_file_travels_by_hash_only(cli, new_job, tmp_path, monkeypatch):
     """A capture over 20 MB is recorded by hash, not attached, and listed as not
     re-evaluable by verify."""

@@ -473,6 +473,7 @@ def test_own_identity_is_trusted_on_own_computer_only(cli, tmp_path, monkeypatch
     assert not check_signatures(signed).trusted  # the PDF carries the cert; not enough
 
 
+@pytest.mark.slow
 def test_one_changed_byte_in_the_signed_range_is_caught(signed_file):
     from commission.report.signatures import NotAPdf, check_signatures
 

@@ -44,6 +44,7 @@ def _text(pdf) -> str:
                           text=True, timeout=60).stdout
 
 
+@pytest.mark.slow
 def test_per_phase_tables_one_per_measurement(record3):
     """'Per phase' holds one table per measurement with its L1, L2, L3 rows in order."""
     text = _text(record3)
@@ -62,6 +63,7 @@ def test_per_phase_tables_one_per_measurement(record3):
     assert "233 V" in rows[0] and "229 V" in rows[1] and "235 V" in rows[2]
 
 
+@pytest.mark.slow
 def test_phasor_diagram_and_capture_table(record3):
     """The capture's per-phase table, the diagram's labels and its stated conventions."""
     flat = " ".join(_text(record3).split())
@@ -73,6 +75,7 @@ def test_phasor_diagram_and_capture_table(record3):
     assert "sequence L1-L2-L3 measured, voltage unbalance u2 1.18 %" in flat
 
 
+@pytest.mark.slow
 def test_three_phase_charts_fit_their_frames(record3):
     """Every mark of the phasor diagram and the harmonic charts lies in its frame."""
     frames, marks = _bounds()._check_pdf(record3)

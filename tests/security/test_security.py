@@ -168,6 +168,7 @@ def _snapshot(folder: Path) -> set[Path]:
     return {p for p in folder.rglob("*")}
 
 
+@pytest.mark.slow
 def test_imported_attachment_names_cannot_escape(cli, demo, tmp_path, monkeypatch):
     """A forged record names its files '../../evil', an absolute path and so on; the PDF
     carries attachments under those names. Import and verify write none of them."""

@@ -41,6 +41,7 @@ def _goto(child, item: str, typed: str) -> None:
     child.sendline(typed)
 
 
+@pytest.mark.slow
 def test_a_new_user_on_site(cli, new_job, register_path):
     job = new_job()
     due = (date.today() + timedelta(days=200)).isoformat()

@@ -31,6 +31,7 @@ def _item(data, item_id):
     return next(i for i in data["items"] if i["id"] == item_id)
 
 
+@pytest.mark.slow
 def test_walk_in_a_terminal_keeps_every_answer(cli, new_job, register_path):
     job = new_job()
     child = _spawn(job, register_path)
