@@ -9,8 +9,6 @@ import os
 for _name in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
     os.environ.setdefault(_name, "1")
 import shutil
-import subprocess
-import sys
 from pathlib import Path
 
 import pytest
@@ -76,13 +74,40 @@ def need_tool(name: str):
 
 
 @pytest.fixture(scope="session")
-def demo_record(tmp_path_factory) -> Path:
-    """A demo record made once per session by the real `commission demo` in a subprocess,
-    in its own folder, for the tests that read the drawn pages."""
+def _demo_once(tmp_path_factory) -> tuple[Path, str]:
+    """The real `commission demo`, run once per test process (in-process, as the CLI runs
+    it): its folder (register, identity, trust store, signed record) and what it printed.
+    Tests never touch this folder; they take a private copy through ``demo``."""
+    from commission.cli.app import app
+
+    folder = tmp_path_factory.mktemp("demo-once") / "run"
+    old = os.environ.get("COMMISSION_HOME")
+    result = CliRunner().invoke(app, ["demo", "--out", str(folder)])
+    if old is None:
+        os.environ.pop("COMMISSION_HOME", None)
+    else:
+        os.environ["COMMISSION_HOME"] = old
+    assert result.exit_code == 0, result.output
+    return folder, result.stdout
+
+
+@pytest.fixture(scope="module")
+def demo(_demo_once, tmp_path_factory) -> dict:
+    """A private copy of the demo run for one test module: ``folder`` (usable as
+    COMMISSION_HOME), ``pdf`` (the signed record), ``job``, ``cert``, ``register``, and
+    ``out`` (what the demo printed)."""
+    import re
+
+    source, out = _demo_once
     folder = tmp_path_factory.mktemp("demo") / "run"
-    env = {k: v for k, v in os.environ.items() if not k.startswith("COMMISSION_")}
-    env["NO_COLOR"] = "1"
-    done = subprocess.run([sys.executable, "-m", "commission.cli.app", "demo", "--out",
-                           str(folder)], capture_output=True, text=True, env=env, timeout=300)
-    assert done.returncode == 0, done.stderr
-    return next(folder.glob("record-*.pdf"))
+    shutil.copytree(source, folder)
+    (pdf,) = folder.glob("record-*.pdf")
+    job = re.search(r"demo job (\w+)", out).group(1)
+    return {"folder": folder, "pdf": pdf, "job": job, "cert": folder / "identity" / "cert.pem",
+            "register": folder / "register.sqlite3", "out": out}
+
+
+@pytest.fixture(scope="session")
+def demo_record(_demo_once) -> Path:
+    """The demo's signed record, for the tests that only read the drawn pages."""
+    return next(_demo_once[0].glob("record-*.pdf"))

@@ -65,6 +65,7 @@ def test_good_demo_installation_is_ready(demo_job):
     assert all(i["verdict"] != "pending" for i in data["items"])
 
 
+@pytest.mark.slow
 def test_reversed_clamp_capture_fails(demo_job):
     _capture(demo_job.files / "reversed.csv", sign=-1.0)
     data = demo_job({"files/clamp-capture.csv": "files/reversed.csv"})
@@ -74,6 +75,7 @@ def test_reversed_clamp_capture_fails(demo_job):
     assert abs(clamp["measured"]["value"]) == pytest.approx(180.0, abs=1.0)
 
 
+@pytest.mark.slow
 def test_clamp_on_another_phase_fails(demo_job):
     _capture(demo_job.files / "phase.csv", shift_deg=120.0)
     data = demo_job({"files/clamp-capture.csv": "files/phase.csv"})
@@ -103,6 +105,7 @@ def test_soak_that_will_overheat_fails_and_blocks_ready(demo_job):
     assert any("heatsink.soak_log" in r for r in data["status_reasons"])
 
 
+@pytest.mark.slow
 def test_soak_too_short_is_review(demo_job):
     # Five minutes of a 40-minute time constant heading close to the limit: cannot tell.
     _soak(demo_job.files / "short.csv", t_inf=85.0, tau_s=2400.0, minutes=5)
@@ -125,14 +128,19 @@ def test_weak_element_heating_fails(demo_job):
         ("protection.rcd.t1: {text: 24 ms", "protection.rcd.t1: {text: 310 ms",
          "protection.rcd.t1"),
         ("earth.zs: {text: 0.58 Ω", "earth.zs: {text: 2.9 Ω", "earth.zs"),
-        ("insulation.resistance: {text: 180 MΩ", "insulation.resistance: {text: 0.4 MΩ",
-         "insulation.resistance"),
-        ("thermostat.open_current: {text: 0.02 A", "thermostat.open_current: {text: 11.9 A",
-         "thermostat.open_current"),
-        ("clamp.load.after: 2.13 kW", "clamp.load.after: -1.86 kW", "clamp.load.after"),
-        ("element.cold_resistance: {text: 18.9 Ω", "element.cold_resistance: {text: 24 Ω",
-         "element.cold_resistance"),
-        ("protection.rcd.type: A", "protection.rcd.type: AC", "protection.rcd.type"),
+        pytest.param("insulation.resistance: {text: 180 MΩ",
+                     "insulation.resistance: {text: 0.4 MΩ", "insulation.resistance",
+                     marks=pytest.mark.slow),
+        pytest.param("thermostat.open_current: {text: 0.02 A",
+                     "thermostat.open_current: {text: 11.9 A", "thermostat.open_current",
+                     marks=pytest.mark.slow),
+        pytest.param("clamp.load.after: 2.13 kW", "clamp.load.after: -1.86 kW",
+                     "clamp.load.after", marks=pytest.mark.slow),
+        pytest.param("element.cold_resistance: {text: 18.9 Ω",
+                     "element.cold_resistance: {text: 24 Ω", "element.cold_resistance",
+                     marks=pytest.mark.slow),
+        pytest.param("protection.rcd.type: A", "protection.rcd.type: AC",
+                     "protection.rcd.type", marks=pytest.mark.slow),
     ],
 )
 def test_one_bad_critical_reading_makes_not_ready_naming_it(demo_job, old, new, item):
@@ -164,6 +172,7 @@ def test_harmonics_predicted_at_half_power_match_closed_form(demo_job):
     assert item["expected"]["max"] == 2.30  # IEC 61000-3-2 Class A, h3
 
 
+@pytest.mark.slow
 def test_heating_log_of_a_weak_element_fails(demo_job):
     """A log rising at 60 % of P/(m·cp) (IAPWS-95 water, 2947 W into 150 L) fails."""
     lines = ["time_s,temp_c"]

@@ -19,7 +19,6 @@ from __future__ import annotations
 import copy
 import hashlib
 import json
-import os
 import re
 import subprocess
 from pathlib import Path
@@ -35,25 +34,6 @@ GENERATED = "2026-12-01T12:00:00Z"
 BOMB = "".join(
     ['lol0: &l0 ["lol","lol","lol","lol","lol","lol","lol","lol","lol"]\n']
     + [f"lol{n}: &l{n} [{','.join([f'*l{n - 1}'] * 9)}]\n" for n in range(1, 10)])
-
-
-@pytest.fixture(scope="module")
-def demo(tmp_path_factory):
-    from typer.testing import CliRunner
-
-    from commission.cli.app import app
-
-    folder = tmp_path_factory.mktemp("demo")
-    old = os.environ.get("COMMISSION_HOME")
-    result = CliRunner().invoke(app, ["demo", "--out", str(folder)])
-    if old is None:
-        os.environ.pop("COMMISSION_HOME", None)
-    else:
-        os.environ["COMMISSION_HOME"] = old
-    assert result.exit_code == 0, result.output
-    job = re.search(r"demo job (\w+)", result.stdout).group(1)
-    return {"folder": folder, "job": job, "register": folder / "register.sqlite3",
-            "cert": folder / "identity" / "cert.pem"}
 
 
 class Forge:

@@ -11,7 +11,6 @@ tests/data/record-v1-installer.pem).
 from __future__ import annotations
 
 import json
-import os
 import re
 import shutil
 import sqlite3
@@ -25,26 +24,6 @@ from conftest import CHECKLIST, DEMO, ROOT, need_tool
 DATA = ROOT / "tests" / "data"
 PASS = "larch-house-demo"
 VERSION = re.search(r"^version: *(\S+)", CHECKLIST.read_text(encoding="utf-8"), re.M).group(1)
-
-
-@pytest.fixture(scope="module")
-def demo(tmp_path_factory):
-    from typer.testing import CliRunner
-
-    from commission.cli.app import app
-
-    folder = tmp_path_factory.mktemp("demo")
-    old = os.environ.get("COMMISSION_HOME")
-    result = CliRunner().invoke(app, ["demo", "--out", str(folder)])
-    if old is None:
-        os.environ.pop("COMMISSION_HOME", None)
-    else:
-        os.environ["COMMISSION_HOME"] = old
-    assert result.exit_code == 0, result.output
-    (pdf,) = folder.glob("record-*.pdf")
-    job = re.search(r"demo job (\w+)", result.stdout).group(1)
-    return {"folder": folder, "pdf": pdf, "job": job, "register": folder / "register.sqlite3",
-            "cert": folder / "identity" / "cert.pem"}
 
 
 def _payload(pdf: Path) -> bytes:

@@ -16,29 +16,6 @@ from conftest import need_tool
 PASS = "larch-house-demo"
 
 
-@pytest.fixture(scope="module")
-def demo(tmp_path_factory):
-    """One demo run for the module (register, identity, trust store, signed record)."""
-    import os
-
-    from typer.testing import CliRunner
-
-    from commission.cli.app import app
-
-    folder = tmp_path_factory.mktemp("demo")
-    old = os.environ.get("COMMISSION_HOME")
-    result = CliRunner().invoke(app, ["demo", "--out", str(folder)])
-    if old is None:
-        os.environ.pop("COMMISSION_HOME", None)
-    else:
-        os.environ["COMMISSION_HOME"] = old
-    assert result.exit_code == 0, result.output
-    (pdf,) = folder.glob("record-*.pdf")
-    job = re.search(r"demo job (\w+)", result.stdout).group(1)
-    return {"folder": folder, "pdf": pdf, "job": job, "cert": folder / "identity" / "cert.pem",
-            "register": folder / "register.sqlite3", "out": result.stdout}
-
-
 def _run(*args: str) -> subprocess.CompletedProcess:
     return subprocess.run([str(a) for a in args], capture_output=True, text=True, timeout=120)
 

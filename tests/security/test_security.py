@@ -20,25 +20,6 @@ from conftest import CHECKLIST, ROOT, need_tool
 PASS = "larch-house-demo"
 
 
-@pytest.fixture(scope="module")
-def demo(tmp_path_factory):
-    """One demo run for the module: register, identity, trust store, signed record."""
-    from typer.testing import CliRunner
-
-    from commission.cli.app import app
-
-    folder = tmp_path_factory.mktemp("demo")
-    old = os.environ.get("COMMISSION_HOME")
-    result = CliRunner().invoke(app, ["demo", "--out", str(folder)])
-    if old is None:
-        os.environ.pop("COMMISSION_HOME", None)
-    else:
-        os.environ["COMMISSION_HOME"] = old
-    assert result.exit_code == 0, result.output
-    (pdf,) = folder.glob("record-*.pdf")
-    return {"folder": folder, "pdf": pdf, "cert": folder / "identity" / "cert.pem"}
-
-
 # --------------------------------------------------------------------------- YAML
 
 def _tagged(marker: Path) -> dict[str, str]:
