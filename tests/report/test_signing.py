@@ -741,7 +741,7 @@ def test_countersigned_file_keeps_both_signatures_valid(cli, tmp_path, monkeypat
     assert fields == ["Installer", "Reviewer", "Reviewer-2"]
 
 
-def test_countersign_warns_when_the_installer_is_not_trusted(cli, tmp_path, monkeypatch):
+def test_countersign_refuses_when_the_installer_is_not_trusted(cli, tmp_path, monkeypatch):
     use_home(monkeypatch, tmp_path / "installer")
     new_identity(cli)
     first = tmp_path / "record.pdf"
@@ -749,8 +749,9 @@ def test_countersign_warns_when_the_installer_is_not_trusted(cli, tmp_path, monk
     use_home(monkeypatch, tmp_path / "reviewer")
     new_identity(cli, "Σοφία Παπαδοπούλου", "GR-5")
     result = cli("countersign", first, "--out", tmp_path / "c.pdf")
-    assert result.exit_code == 0
-    assert "NOT trusted" in result.stdout and "not in your trust store" in result.stderr
+    assert result.exit_code == 2 and not (tmp_path / "c.pdf").exists()
+    assert "refusing to countersign" in result.stderr and \
+        "not in your trust store" in result.stderr and result.stderr.count("\n") == 1
 
 
 def test_countersign_refuses_unsigned_tampered_and_non_pdf(cli, tmp_path):

@@ -38,6 +38,7 @@ app.command("report")(friendly(report.report))
 app.command("verify")(friendly(report.verify))
 app.command("import")(friendly(report.import_))
 app.command("blank")(friendly(report.blank))
+app.command("seal")(friendly(report.seal))
 
 
 def _plain(value: bool) -> bool:

@@ -282,3 +282,29 @@ def blank(
     loaded = load(resolve("checklists", checklist), checks=CHECKS)
     _write(out, render(loaded))
     typer.echo(f"paper form written: {out}")
+
+
+def seal(
+    file: Annotated[Path, typer.Argument(help="A signed record (PDF).")],
+    tsa: Annotated[str, typer.Option("--tsa", help="The timestamp authority's URL (RFC 3161).")],
+    out: Annotated[Path, typer.Option("--out", help="Where to write the sealed PDF.")],
+) -> None:
+    """Add a document timestamp and validation data (PAdES B-LT/B-LTA), once online."""
+    from ..errors import UserError
+    from ..record import safe
+    from ..report.seal import seal as run
+    from ..report.signatures import check_signatures
+
+    try:
+        data = file.read_bytes()
+    except OSError as exc:
+        raise UserError(f"{file}: cannot read ({exc.strerror})") from None
+    if out.exists():
+        raise UserError(f"{out}: already exists; choose another --out")
+    sealed = run(data, tsa)
+    _write(out, sealed)
+    report = check_signatures(sealed)
+    typer.echo(f"sealed: {out}")
+    for t in report.timestamps:
+        typer.echo(f"timestamp by {safe(t.tsa)}: {safe(t.time)} (attested); "
+                   f"{'trusted' if t.trusted else 'not trusted here'}")

@@ -58,11 +58,12 @@ def embed_files(pdf: bytes, record_payload: bytes, attachments: list[dict[str, A
 
 
 def make(state: JobState, form: dict[str, Any], sign: bool = False,
-         passphrase: str | None = None, signing: rec.SigningInfo | None = None) -> Made:
+         passphrase: str | None = None, signing: rec.SigningInfo | None = None,
+         identity=None) -> Made:
     """``signing``: the signed facts the record declares (creation time, the installer's
     certificate fingerprint, the reviewer's stamp box). When signing without one, the
     creation time, the loaded identity's certificate fingerprint and the stamp box the
-    layout reserved are declared."""
+    layout reserved are declared. ``identity``: sign with it instead of the stored one."""
     from .pdf import render
 
     results = state.results()
@@ -71,7 +72,7 @@ def make(state: JobState, form: dict[str, Any], sign: bool = False,
     if sign:
         from .identity import load_identity
 
-        ident = load_identity()
+        ident = identity or load_identity()
         signer = {"name": ident.name, "registration": ident.registration or "",
                   "fingerprint": ident.fingerprint}
     made: dict[str, rec.BuiltRecord] = {}

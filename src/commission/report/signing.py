@@ -126,16 +126,14 @@ def countersign(pdf_bytes: bytes, *, passphrase: str, reason: str = "reviewed",
     if not before.sound():
         raise UserError(f"refusing to countersign: {before.first_reason()}")
     # the whole verification of the record it carries (installer's certificate, times,
-    # every verdict); only the first signature may be one this reviewer does not trust yet
+    # every verdict), and every signature trusted by this reviewer
     full = verify(pdf_bytes)
     blocking = [p for p in full.problems if p != full.trust_note]
     if blocking and full.record_embedded:
         raise UserError(f"refusing to countersign: {blocking[0]}")
-    first_only = not before.signatures[0].trusted and \
-        all(s.trusted for s in before.signatures[1:]) and \
-        all(t.trusted for t in before.timestamps)
-    if not before.trusted and not first_only:
-        raise UserError(f"refusing to countersign: {before.trust_note}")
+    if not before.trusted:
+        raise UserError(f"refusing to countersign: {before.trust_note}; trust the "
+                        "installer's certificate first (check its fingerprint with them)")
     name = field_name or _free_field(signature_fields(pdf_bytes), REVIEWER_FIELD)
     signed = sign_pdf(pdf_bytes, passphrase=passphrase, reason=reason, location=location,
                       field_name=name, identity=identity)
