@@ -91,6 +91,8 @@ INPUTS = [
     ("report-passphrase", ["report", "{JOB}", "--out", "{OUT}", "--sign", "--passphrase-file",
                            "{F}"], "passphrase"),
     ("verify", ["verify", "--", "{F}"], "pdf"),
+    # no timestamp authority listens on 127.0.0.1:9: the good file gets one line, exit 2
+    ("seal", ["seal", "--tsa", "http://127.0.0.1:9/", "--out", "{OUT}", "--", "{F}"], "pdf"),
     ("verify-trust", ["verify", "{PDF}", "--trust", "{F}"], "cert"),
     ("import", ["import", "--register", "{NEWREG}", "--", "{F}"], "pdf"),
     ("blank", ["blank", "--out", "{OUT}", "--", "{F}"], "checklist"),
