@@ -6,7 +6,8 @@ requires) written by pyHanko as a new incremental revision: the bytes already in
 file are never rewritten, so an earlier signature stays intact when a reviewer
 countersigns. The signing time is this computer's clock, recorded in the signature
 dictionary's ``/M``; no timestamp authority is asked (work on site is offline), so a
-verifier can only rely on the time the signer claims.
+verifier can only rely on the time the signer claims until ``commission seal`` adds an
+RFC 3161 document timestamp (see seal.py).
 
 The private key is decrypted in memory for the duration of one signature.
 """
