@@ -533,3 +533,155 @@ def test_trust_roles_and_fingerprint_grouping(cli, tmp_path):
     from commission.report import trust as store
 
     assert [store.is_authority(c) for c in (leaf.cert, ca.cert)] == [False, True]
+
+
+# --------------------------------------------------------------------------- fast units
+# The same rules on a one-page PDF (no record), so each stays covered by the fast suite.
+
+
+def _tiny_pdf() -> bytes:
+    import io
+
+    from reportlab.pdfgen import canvas
+
+    buf = io.BytesIO()
+    page = canvas.Canvas(buf)
+    page.drawString(72, 720, "handover")
+    page.showPage()
+    page.save()
+    return buf.getvalue()
+
+
+def _sign(pdf: bytes, who: Who, claimed: dt.datetime | None = None,
+          field: str = "Installer") -> bytes:
+    from commission.report.signing import sign_pdf
+
+    clock = Clock(None)
+    if claimed is not None:
+        clock.claim(claimed)
+    try:
+        return sign_pdf(pdf, passphrase=PASS, reason="r", location=None, field_name=field,
+                        identity=who.identity)
+    finally:
+        clock.claim(None)
+
+
+def test_trust_reasons_on_a_small_file(tmp_path):
+    from commission.report import trust as store
+    from commission.report.signatures import check_signatures
+
+    pki = tmp_path / "pki"
+    installer = make_cert(pki, "Ines Marchetti", "REG-55120")
+    ca = make_cert(pki, "Trade Body CA", "CA-1", ca=True)
+    cases = [
+        (make_cert(pki, "Carl Cousin", "REG-9", issuer=installer),
+         "a trusted certificate that is not a certificate authority"),
+        (make_cert(pki, "Mia Member", "REG-3", issuer=ca),
+         "a certificate authority you did not add with 'trust add --authority'"),
+        (make_cert(pki, "Ines Marchetti", "REG-55120"), "same name, another key"),
+        (make_cert(pki, "Sven Stranger", "REG-13"), "is not in your trust store"),
+    ]
+    store.add(installer.pem)
+    store.add(ca.pem)
+    pdf = _tiny_pdf()
+    assert check_signatures(_sign(pdf, installer)).ok()  # the control
+    for who, reason in cases:
+        report = check_signatures(_sign(pdf, who))
+        assert report.sound() and not report.trusted and not report.ok()
+        assert report.first_reason().startswith(
+            f"signature 'Installer' ({who.cert.subject.rfc4514_string().split('CN=')[1]}) "
+            "is not trusted: "), report.first_reason()
+        assert reason in report.first_reason(), (reason, report.first_reason())
+    # an extra untrusted signature after a trusted one is named
+    two = check_signatures(_sign(_sign(pdf, installer), cases[3][0], field="Reviewer"))
+    assert two.signatures[0].trusted and not two.signatures[1].trusted and not two.ok()
+    assert two.first_reason().startswith("signature 'Reviewer' (Sven Stranger) is not trusted")
+    # once the CA is an authority, what it issued is trusted (and only that)
+    store.add(ca.pem, role="authority")
+    assert check_signatures(_sign(pdf, cases[1][0])).ok()
+    assert not check_signatures(_sign(pdf, cases[0][0])).ok()
+
+
+def test_time_rules_on_a_small_file(tmp_path):
+    from commission.report import trust as store
+    from commission.report.signatures import check_signatures, time_problems
+
+    pki = tmp_path / "pki"
+    now = dt.datetime.now(dt.UTC)
+    valid = make_cert(pki, "Ines Marchetti", "REG-1", not_after=now + 3650 * DAY)
+    early = make_cert(pki, "Ines Marchetti", "REG-2", not_before=now + 30 * DAY)
+    expired = make_cert(pki, "Ines Marchetti", "REG-3", not_before=now - 900 * DAY,
+                        not_after=now - 300 * DAY)
+    for who in (valid, early, expired):
+        store.add(who.pem)
+    pdf = _tiny_pdf()
+    cases = [(valid, now + 730 * DAY, "in the future"),
+             (early, now, "its certificate is not yet valid at the claimed signing time"),
+             (expired, now, "its certificate had expired at the claimed signing time")]
+    for who, claimed, reason in cases:
+        report = check_signatures(_sign(pdf, who, claimed))
+        assert not report.ok() and reason in report.first_reason(), report.first_reason()
+    # two minutes ahead is within the skew allowed
+    assert check_signatures(_sign(pdf, valid, now + dt.timedelta(minutes=2))).ok()
+    # backdated into the expired certificate's life: valid by itself, but before the record
+    backdated = check_signatures(_sign(pdf, expired, now - 600 * DAY))
+    assert backdated.ok()
+    made = now.isoformat(timespec="seconds")
+    (line,) = time_problems(backdated, made)
+    assert "before the record was made" in line
+    assert time_problems(check_signatures(_sign(pdf, valid)), made) == []
+
+
+def _doc_timestamp(pdf: bytes, tsa_leaf: Who, tsa_root: Who,
+                   when: dt.datetime | None = None) -> bytes:
+    import io
+
+    from asn1crypto import keys
+    from asn1crypto import x509 as ax509
+    from cryptography.hazmat.primitives import serialization
+    from pyhanko.pdf_utils.incremental_writer import IncrementalPdfFileWriter
+    from pyhanko.sign.signers.pdf_signer import PdfTimeStamper
+    from pyhanko.sign.timestamps.dummy_client import DummyTimeStamper
+
+    def der(c):
+        return ax509.Certificate.load(c.public_bytes(serialization.Encoding.DER))
+
+    stamper = DummyTimeStamper(
+        tsa_cert=der(tsa_leaf.cert), certs_to_embed=[der(tsa_root.cert)], fixed_dt=when,
+        tsa_key=keys.PrivateKeyInfo.load(tsa_leaf.key.private_bytes(
+            serialization.Encoding.DER, serialization.PrivateFormat.PKCS8,
+            serialization.NoEncryption())))
+    writer = IncrementalPdfFileWriter(io.BytesIO(pdf))
+    return PdfTimeStamper(stamper).timestamp_pdf(writer, "sha256").getvalue()
+
+
+def test_document_timestamps_on_a_small_file(tmp_path):
+    """A TSA trusted by its own certificate (--tsa), an untrusted one, and a timestamp
+    older than the signing time the signature claims."""
+    from commission.report import trust as store
+    from commission.report.signatures import check_signatures
+
+    pki = tmp_path / "pki"
+    root = make_cert(pki, "Test Time Root", "TSA-0", ca=True, rsa=True)
+    leaf = make_cert(pki, "Test Time Authority", "TSA-1", issuer=root, tsa=True, rsa=True)
+    installer = make_cert(pki, "Ines Marchetti", "REG-1")
+    store.add(installer.pem)
+    signed = _sign(_tiny_pdf(), installer)
+    stamped = _doc_timestamp(signed, leaf, root)
+    untrusted = check_signatures(stamped)
+    assert untrusted.sound() and not untrusted.ok()
+    assert "was not added with 'commission trust add --tsa'" in untrusted.first_reason()
+    store.add(leaf.pem)  # as a signer: does not make it a timestamp authority
+    assert not check_signatures(stamped).ok()
+    store.add(leaf.pem, role="tsa")
+    trusted = check_signatures(stamped)
+    assert trusted.ok(), trusted.first_reason()
+    (stamp,) = trusted.timestamps
+    assert stamp.trusted and stamp.tsa == "Test Time Authority"
+    attested = dt.datetime.fromisoformat(stamp.time)
+    assert abs((attested - dt.datetime.now(dt.UTC)).total_seconds()) < 600
+    # a timestamp a day older than the time the signature claims
+    old = check_signatures(_doc_timestamp(signed, leaf, root,
+                                          dt.datetime.now(dt.UTC) - DAY))
+    assert not old.ok() and "after the document timestamp that covers it" in \
+        old.first_reason()
