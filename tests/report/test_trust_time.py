@@ -463,6 +463,23 @@ def test_sealed_record_verifies_against_the_local_tsa(cli, demo, reviewer, tsa, 
                           str(tsa["root"].pem)], capture_output=True, text=True, timeout=60)
     assert bad.returncode != 0
 
+    # the validation data: a DSS whose certificates include the installer's and the TSA's
+    # (read with pyHanko's reader; qpdf checks the structure)
+    import io
+
+    from cryptography import x509
+    from cryptography.hazmat.primitives import hashes
+    from pyhanko.pdf_utils.reader import PdfFileReader
+
+    dss = PdfFileReader(io.BytesIO(sealed.read_bytes())).root["/DSS"]
+    held = {x509.load_der_x509_certificate(ref.get_object().data)
+            .fingerprint(hashes.SHA256()).hex() for ref in dss["/Certs"]}
+    assert {installer.fingerprint, tsa["leaf"].fingerprint} <= held
+    need_tool("qpdf")
+    check = subprocess.run(["qpdf", "--check", str(sealed)], capture_output=True, text=True,
+                           timeout=60)
+    assert check.returncode == 0, check.stdout + check.stderr
+
     # poppler: the approval signature is still valid in the sealed file
     out = subprocess.run(["pdfsig", str(sealed)], capture_output=True, text=True, timeout=60)
     text = out.stdout + out.stderr
