@@ -62,6 +62,9 @@ def walk(
     item: Annotated[
         str | None, typer.Option("--item", help="Open this item (or every item of this "
                                  "section) first, answered or not.")] = None,
+    take_over: Annotated[
+        bool, typer.Option("--take-over", help="Take over a company register job whose "
+                           "walk on another device stopped renewing its lease.")] = False,
     register: RegisterOpt = None,
 ) -> None:
     """Walk the job's checklist on site: one item at a time, each answer kept at once."""
@@ -70,7 +73,7 @@ def walk(
     with open_register(register, create=False) as reg:
         target = reg.find_job(job)
         inst = reg.instrument_by_serial(instrument) if instrument else None
-        with reg.walk_lock(target):
+        with reg.walk_lock(target, take_over=take_over):
             if inst is not None:
                 # Kept with the job: a walk resumed after Ctrl-C stamps the same instrument.
                 reg.set_instrument_in_use(target, inst)

@@ -47,8 +47,9 @@ def make_register(option: str | Path | None = None, create: bool = True) -> Regi
     """The engine for ``option`` (not yet opened)."""
     target = register_target(option)
     if isinstance(target, str):
-        raise RegisterError(f"{redact(target)}: a company register (PostgreSQL) is not "
-                            "supported by this release; give a register file")
+        from .postgres import PostgresRegister
+
+        return PostgresRegister(target, create=create)
     return Register(target, create=create)
 
 

@@ -106,7 +106,8 @@ class RegisterEngine(Protocol):
     def has_blob(self, sha256: str) -> bool: ...
 
     # -- locks and copies -------------------------------------------------------------
-    def walk_lock(self, job: Job) -> AbstractContextManager[Any]:
-        """Hold the job for one walk; a second walk is refused, naming the holder."""
+    def walk_lock(self, job: Job, take_over: bool = False) -> AbstractContextManager[Any]:
+        """Hold the job for one walk; a second walk is refused, naming the holder and since
+        when. ``take_over`` confirms taking over a lease that expired (PostgreSQL)."""
 
     def backup(self, dest: Path) -> None: ...

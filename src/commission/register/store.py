@@ -8,7 +8,6 @@ register never stores a verdict: verdicts are derived from the entries.
 from __future__ import annotations
 
 import contextlib
-import getpass
 import hashlib
 import json
 import os
@@ -68,13 +67,34 @@ def later_than(last: str | None) -> str:
 
 
 def who() -> str:
+    """The author of an entry: a person's identity, never the operating-system user.
+    ``COMMISSION_USER`` when set (a name the company gives), else the SHA-256 fingerprint of
+    this user's signing certificate (``cert:`` and 64 hex digits), else "unknown". A
+    PostgreSQL register without either records the database role instead."""
     name = os.environ.get("COMMISSION_USER")
     if name:
         return name
+    fp = identity_fingerprint()
+    return f"cert:{fp}" if fp else "unknown"
+
+
+def identity_fingerprint() -> str | None:
+    """SHA-256 of the DER of this user's signing certificate (the PEM decoded with the
+    standard library, so no cryptography import on every entry), or None."""
+    import base64
+
+    from ..paths import config_dir
+
     try:
-        return getpass.getuser()
-    except (KeyError, OSError):
-        return "unknown"
+        pem = (config_dir() / "identity" / "cert.pem").read_text(encoding="ascii")
+    except (OSError, UnicodeDecodeError):
+        return None
+    body = pem.split("-----BEGIN CERTIFICATE-----", 1)[-1].split("-----END", 1)[0]
+    try:
+        der = base64.b64decode("".join(body.split()), validate=True)
+    except ValueError:
+        return None
+    return hashlib.sha256(der).hexdigest() if der else None
 
 
 @dataclass(frozen=True)
@@ -259,7 +279,7 @@ class Register:
     def schema_version(self) -> int:
         return int(self.db.execute("PRAGMA user_version").fetchone()[0])
 
-    def walk_lock(self, job: Job):
+    def walk_lock(self, job: Job, take_over: bool = False):
         """One walk per job: an OS file lock beside the register, released by the OS if the
         process dies."""
         from .lock import JobLock

@@ -1,0 +1,131 @@
+"""The PostgreSQL register's schema, one migration step per version (never edit a
+released step; add the next one).
+
+Its version lives in ``commission_schema`` (PostgreSQL has no ``user_version``). The
+tables mirror the SQLite register's latest schema, with what a shared server needs on
+top: text compared byte-wise (``COLLATE "C"``, so entry times and UUIDs order the same
+as in SQLite whatever the server's locale), append-only entries enforced by a trigger AND
+by privileges (nobody but the owner may update, delete or truncate), and the device
+prefixes that keep short job ids unique across a company's laptops.
+"""
+
+from __future__ import annotations
+
+PG_SCHEMA_VERSION = 1
+
+PG_MIGRATIONS: dict[int, str] = {
+    1: """
+    CREATE TABLE jobs (
+        id BIGINT GENERATED ALWAYS AS IDENTITY PRIMARY KEY,
+        short_id TEXT COLLATE "C" NOT NULL UNIQUE,
+        uuid TEXT COLLATE "C" NOT NULL UNIQUE,
+        created_at TEXT COLLATE "C" NOT NULL,
+        created_by TEXT NOT NULL,
+        site TEXT NOT NULL,
+        address TEXT NOT NULL DEFAULT '',
+        client TEXT NOT NULL DEFAULT '',
+        installer TEXT NOT NULL DEFAULT '',
+        installer_contact TEXT NOT NULL DEFAULT '',
+        installer_registration TEXT NOT NULL DEFAULT '',
+        checklist_id TEXT NOT NULL,
+        checklist_version TEXT NOT NULL,
+        checklist_sha256 TEXT NOT NULL,
+        checklist_text TEXT NOT NULL,
+        checklist_source TEXT NOT NULL DEFAULT '',
+        installer_address TEXT NOT NULL DEFAULT '',
+        client_contact TEXT NOT NULL DEFAULT '',
+        timezone TEXT NOT NULL DEFAULT '',
+        language TEXT NOT NULL DEFAULT '',
+        next_inspection TEXT NOT NULL DEFAULT '',
+        imported TEXT NOT NULL DEFAULT '',
+        recorded TEXT NOT NULL DEFAULT '',
+        -- the database role of the installer the office assigned the job to ('' = none)
+        assigned_to TEXT NOT NULL DEFAULT ''
+    );
+    CREATE TABLE instruments (
+        id BIGINT GENERATED ALWAYS AS IDENTITY PRIMARY KEY,
+        serial TEXT NOT NULL UNIQUE,
+        make TEXT NOT NULL,
+        model TEXT NOT NULL,
+        calibration_due TEXT NOT NULL,
+        added_at TEXT NOT NULL,
+        accuracy TEXT NOT NULL DEFAULT '',
+        accuracy_read_as TEXT NOT NULL DEFAULT ''
+    );
+    CREATE TABLE entries (
+        id BIGINT GENERATED ALWAYS AS IDENTITY PRIMARY KEY,
+        uuid TEXT COLLATE "C" NOT NULL UNIQUE,
+        job_id BIGINT NOT NULL REFERENCES jobs(id),
+        item_id TEXT COLLATE "C" NOT NULL,
+        action TEXT NOT NULL CHECK (action IN ('answer', 'skip', 'na', 'detail')),
+        raw TEXT NOT NULL,
+        value_json TEXT,
+        unit_typed TEXT,
+        instrument_id BIGINT REFERENCES instruments(id),
+        at TEXT COLLATE "C" NOT NULL,
+        by TEXT NOT NULL,
+        supersedes BIGINT REFERENCES entries(id),
+        host TEXT NOT NULL DEFAULT '',
+        read_with TEXT
+    );
+    CREATE INDEX entries_by_job ON entries (job_id, at, uuid);
+    CREATE FUNCTION commission_append_only() RETURNS trigger LANGUAGE plpgsql AS $$
+        BEGIN RAISE EXCEPTION 'entries are append-only'; END $$;
+    CREATE TRIGGER entries_keep_update BEFORE UPDATE OR DELETE ON entries
+        FOR EACH ROW EXECUTE FUNCTION commission_append_only();
+    CREATE TRIGGER entries_keep_truncate BEFORE TRUNCATE ON entries
+        FOR EACH STATEMENT EXECUTE FUNCTION commission_append_only();
+    REVOKE UPDATE, DELETE, TRUNCATE ON entries FROM PUBLIC;
+    CREATE TABLE job_instrument (
+        job_id BIGINT PRIMARY KEY REFERENCES jobs(id),
+        instrument_id BIGINT REFERENCES instruments(id),
+        at TEXT NOT NULL
+    );
+    CREATE TABLE export_profiles (
+        instrument_id BIGINT PRIMARY KEY REFERENCES instruments(id),
+        profile_json TEXT NOT NULL,
+        updated_at TEXT NOT NULL
+    );
+    CREATE TABLE blobs (
+        sha256 TEXT COLLATE "C" PRIMARY KEY,
+        bytes BIGINT NOT NULL,
+        added_at TEXT NOT NULL
+    );
+    CREATE TABLE blob_chunks (
+        blob TEXT COLLATE "C" NOT NULL,
+        seq INTEGER NOT NULL,
+        data BYTEA NOT NULL,
+        PRIMARY KEY (blob, seq)
+    );
+    CREATE TABLE settings (
+        key TEXT PRIMARY KEY,
+        value TEXT NOT NULL
+    );
+    -- Every device that joined the company register, with the prefix of the short job
+    -- ids it makes from then on (given once, never reused).
+    CREATE TABLE devices (
+        device_id TEXT PRIMARY KEY,
+        prefix TEXT COLLATE "C" NOT NULL UNIQUE,
+        joined_at TEXT NOT NULL,
+        joined_by TEXT NOT NULL DEFAULT current_user
+    );
+    -- An item changed on two devices while they were apart: flagged until confirmed.
+    CREATE TABLE conflicts (
+        job_uuid TEXT COLLATE "C" NOT NULL,
+        item_id TEXT COLLATE "C" NOT NULL,
+        entry_uuids TEXT NOT NULL,
+        flagged_at TEXT NOT NULL,
+        confirmed_by TEXT NOT NULL DEFAULT '',
+        confirmed_at TEXT NOT NULL DEFAULT '',
+        PRIMARY KEY (job_uuid, item_id, entry_uuids)
+    );
+    -- One walk per job across devices: a lease with an expiry.
+    CREATE TABLE leases (
+        job_uuid TEXT COLLATE "C" PRIMARY KEY,
+        device_id TEXT NOT NULL,
+        holder TEXT NOT NULL,
+        since TEXT NOT NULL,
+        expires TEXT NOT NULL
+    );
+    """,
+}

@@ -1,0 +1,431 @@
+"""The PostgreSQL register: a company's shared register (psycopg 3, imported here only).
+
+Same protocol and the same rows as the SQLite engine (``store.py``); what differs is what
+a shared server needs: the connection's secrets come from libpq's own places (PGPASSFILE,
+a service file, the environment), never from the command line or the record, so a URL
+with a password in it is refused; entries are append-only by trigger and by privileges;
+a job's walk is held by a lease row with an expiry.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import hashlib
+import json
+import secrets
+import uuid as uuidlib
+from collections.abc import Iterator
+from pathlib import Path
+from typing import Any
+
+from ..errors import UserError
+from .pg_schema import PG_MIGRATIONS, PG_SCHEMA_VERSION
+from .store import (
+    _ALPHABET,
+    CHUNK,
+    DETAIL_FIELDS,
+    Entry,
+    Instrument,
+    Job,
+    RegisterError,
+    later_than,
+    now_iso,
+)
+from .store import who as _who
+
+_ENTRY_COLS = ("id, uuid, item_id, action, raw, value_json, unit_typed, instrument_id, at, by,"
+               " supersedes, host, read_with")
+_INSTRUMENT_COLS = ("id, serial, make, model, calibration_due, added_at, accuracy,"
+                    " accuracy_read_as")
+_JOB_COLS = ("id, short_id, uuid, created_at, created_by, " + ", ".join(DETAIL_FIELDS)
+             + ", checklist_id, checklist_version, checklist_sha256, checklist_text,"
+             " checklist_source, imported, recorded")
+
+
+def _password_in(url: str) -> bool:
+    from urllib.parse import parse_qs, urlsplit
+
+    parts = urlsplit(url)
+    return bool(parts.password) or "password" in {k.lower() for k in parse_qs(parts.query)}
+
+
+class PostgresRegister:
+    """A register on a PostgreSQL server, reached by a ``postgresql://`` URL."""
+
+    def __init__(self, url: str, create: bool = True):
+        from . import redact
+
+        if _password_in(url):
+            raise UserError(f"{redact(url)}: a password may not be given in the register URL "
+                            "(it would stay in shell history and process lists); put it in "
+                            "PGPASSFILE (~/.pgpass) or a service file")
+        self.url = url
+        self.location = redact(url)
+        self.create = create
+        self.read_only = False
+        self._conn: Any = None
+        self._device: str | None = None
+
+    # -- opening, closing, migrations ----------------------------------------
+    def __enter__(self) -> PostgresRegister:
+        if self._conn is None:
+            self.open()
+        return self
+
+    def __exit__(self, *exc: object) -> None:
+        self.close()
+
+    def open(self) -> None:
+        import psycopg
+
+        try:
+            self._conn = psycopg.connect(self.url, autocommit=True,
+                                         application_name="commission")
+        except psycopg.Error as exc:
+            why = " ".join(str(exc).split())[:200]
+            raise RegisterError(f"{self.location}: cannot connect ({why})") from None
+        self._migrate()
+
+    def close(self) -> None:
+        if self._conn is not None:
+            with contextlib.suppress(Exception):
+                self._conn.close()
+            self._conn = None
+
+    @property
+    def conn(self):
+        if self._conn is None:
+            self.open()
+        return self._conn
+
+    def _x(self, sql: str, args: tuple | list = ()):
+        """Execute one statement; a server refusal becomes one line naming the register."""
+        import psycopg
+
+        try:
+            return self.conn.execute(sql, args)
+        except psycopg.errors.InsufficientPrivilege as exc:
+            raise RegisterError(f"{self.location}: not allowed for this database role "
+                                f"({_first_line(exc)}); nothing was changed") from None
+        except psycopg.errors.RaiseException as exc:
+            raise RegisterError(f"{self.location}: refused ({_first_line(exc)}); nothing "
+                                "was changed") from None
+        except psycopg.OperationalError as exc:
+            raise RegisterError(f"{self.location}: the connection failed "
+                                f"({_first_line(exc)}); nothing unconfirmed was kept") from None
+
+    def schema_version(self) -> int:
+        row = self._x("SELECT version FROM commission_schema").fetchone()
+        return int(row[0])
+
+    def _migrate(self) -> None:
+        conn = self.conn
+        with conn.transaction():
+            # one migrating client at a time (the key is arbitrary but fixed)
+            self._x("SELECT pg_advisory_xact_lock(7351001)")
+            exists = self._x("SELECT to_regclass('commission_schema')").fetchone()[0]
+            if exists is None:
+                if not self.create:
+                    raise RegisterError(f"{self.location}: no register in this database "
+                                        "(make one with 'commission new' or check the URL)")
+                self._x("CREATE TABLE commission_schema (version INTEGER NOT NULL)")
+                self._x("INSERT INTO commission_schema VALUES (0)")
+            version = self.schema_version()
+            if version > PG_SCHEMA_VERSION:
+                raise RegisterError(f"{self.location}: made by a newer release (schema "
+                                    f"{version}; this one reads up to {PG_SCHEMA_VERSION}); "
+                                    "upgrade commission")
+            for step in range(version + 1, PG_SCHEMA_VERSION + 1):
+                self._x(PG_MIGRATIONS[step])
+                self._x("UPDATE commission_schema SET version = %s", (step,))
+
+    @contextlib.contextmanager
+    def batch(self) -> Iterator[None]:
+        """One transaction around many writes: all of them are kept, or none."""
+        with self.conn.transaction():
+            yield
+
+    def _tx(self):
+        return self.conn.transaction()  # nested ones become savepoints inside batch()
+
+    # -- device ----------------------------------------------------------------
+    def device_id(self) -> str:
+        """The id this server register uses for entries typed into it directly."""
+        if self._device is None:
+            row = self._x("SELECT value FROM settings WHERE key = 'device_id'").fetchone()
+            if row is None:
+                self._x("INSERT INTO settings (key, value) VALUES ('device_id', %s)"
+                        " ON CONFLICT DO NOTHING", ("dev-" + secrets.token_hex(8),))
+                row = self._x("SELECT value FROM settings WHERE key = 'device_id'").fetchone()
+            self._device = row[0]
+        return self._device
+
+    def join(self, device_id: str) -> str:
+        """The short-id prefix of a device, given the first time it joins (two letters of
+        the short-id alphabet, never reused)."""
+        with self._tx():
+            self._x("LOCK TABLE devices IN SHARE ROW EXCLUSIVE MODE")
+            row = self._x("SELECT prefix FROM devices WHERE device_id = %s",
+                          (device_id,)).fetchone()
+            if row:
+                return row[0]
+            used = {r[0] for r in self._x("SELECT prefix FROM devices")}
+            free = [a + b for a in _ALPHABET for b in _ALPHABET if a + b not in used]
+            if not free:
+                raise RegisterError(f"{self.location}: every device prefix is taken")
+            prefix = free[0]
+            self._x("INSERT INTO devices (device_id, prefix, joined_at) VALUES (%s, %s, %s)",
+                    (device_id, prefix, now_iso()))
+            return prefix
+
+    def who(self) -> str:
+        """The author: the person's identity (see ``store.who``), else the database role."""
+        name = _who()
+        if name != "unknown":
+            return name
+        return "role:" + self._x("SELECT session_user").fetchone()[0]
+
+    # -- jobs ------------------------------------------------------------------
+    def create_job(self, checklist, details: dict[str, str], by: str | None = None) -> Job:
+        import psycopg
+
+        prefix = self.join(self.device_id())
+        for _ in range(20):
+            short = prefix + "".join(secrets.choice(_ALPHABET) for _ in range(4))
+            try:
+                return self.insert_job(short_id=short, uuid=str(uuidlib.uuid4()),
+                                       created_at=now_iso(), created_by=by or self.who(),
+                                       details=details, checklist=checklist)
+            except psycopg.errors.UniqueViolation:
+                continue
+        raise RegisterError(f"{self.location}: no free short id under prefix {prefix}")
+
+    def insert_job(self, *, short_id, uuid, created_at, created_by, details, checklist,
+                   imported: str = "", recorded: dict[str, Any] | None = None,
+                   assigned_to: str = "") -> Job:
+        d = {k: details.get(k) or "" for k in DETAIL_FIELDS}
+        cols = ("short_id, uuid, created_at, created_by, " + ", ".join(DETAIL_FIELDS)
+                + ", checklist_id, checklist_version, checklist_sha256, checklist_text,"
+                " checklist_source, imported, recorded, assigned_to")
+        with self._tx():
+            row = self.conn.execute(
+                f"INSERT INTO jobs ({cols}) VALUES ("
+                + ",".join(["%s"] * (4 + len(DETAIL_FIELDS) + 8)) + ") RETURNING id",
+                (short_id, uuid, created_at, created_by, *(d[k] for k in DETAIL_FIELDS),
+                 checklist.checklist.id, checklist.checklist.version, checklist.sha256,
+                 checklist.text, checklist.name, imported,
+                 json.dumps(recorded, ensure_ascii=False) if recorded else "",
+                 assigned_to)).fetchone()
+        return self.job(row[0])
+
+    def job(self, job_id: int) -> Job:
+        row = self._x(f"SELECT {_JOB_COLS} FROM jobs WHERE id = %s", (job_id,)).fetchone()
+        return self._job(row)
+
+    def _job(self, row: tuple) -> Job:
+        names = [c.strip() for c in _JOB_COLS.split(",")]
+        r = dict(zip(names, row, strict=True))
+        details = {k: r[k] for k in DETAIL_FIELDS}
+        original = dict(details)
+        for e in self._entries(r["id"], "AND action = 'detail'"):
+            details[e.item_id.removeprefix("job.")] = e.value
+        return Job(r["id"], r["short_id"], r["uuid"], r["created_at"], r["created_by"], details,
+                   r["checklist_id"], r["checklist_version"], r["checklist_sha256"],
+                   r["checklist_text"], r["checklist_source"], original,
+                   r["imported"] or "", json.loads(r["recorded"]) if r["recorded"] else {})
+
+    def find_job(self, ref: str) -> Job:
+        ref = ref.strip()
+        row = self._x(f"SELECT {_JOB_COLS} FROM jobs WHERE short_id = %s OR uuid = %s",
+                      (ref.upper(), ref.lower())).fetchone()
+        if row is None and len(ref) >= 8 and all(c in "0123456789abcdef-" for c in ref.lower()):
+            rows = self._x(f"SELECT {_JOB_COLS} FROM jobs WHERE left(uuid, %s) = %s LIMIT 2",
+                           (len(ref), ref.lower())).fetchall()
+            row = rows[0] if len(rows) == 1 else None
+        if row is None:
+            known = [r[0] for r in self._x("SELECT short_id FROM jobs ORDER BY id DESC LIMIT 5")]
+            hint = f" (recent: {', '.join(known)})" if known else " (the register has no jobs)"
+            raise UserError(f"job '{ref}': not in {self.location}{hint}")
+        return self._job(row)
+
+    def has_job(self, *, uuid: str | None = None, short_id: str | None = None) -> bool:
+        return self._x("SELECT 1 FROM jobs WHERE uuid = %s OR short_id = %s",
+                       (uuid, short_id)).fetchone() is not None
+
+    def jobs(self) -> list[Job]:
+        return [self._job(r) for r in self._x(f"SELECT {_JOB_COLS} FROM jobs ORDER BY id")]
+
+    def amend(self, job: Job, changes: dict[str, str], by: str | None = None) -> list[Entry]:
+        out = []
+        for key, value in changes.items():
+            if key not in DETAIL_FIELDS:
+                raise UserError(f"{key}: not a job detail ({', '.join(DETAIL_FIELDS)})")
+            if job.details.get(key) == value:
+                continue
+            out.append(self.add_entry(job, f"job.{key}", "detail", value, value, by=by))
+        return out
+
+    # -- entries ---------------------------------------------------------------
+    def add_entry(self, job: Job, item_id: str, action: str, raw: str, value: Any = None,
+                  unit_typed: str | None = None, instrument_id: int | None = None,
+                  by: str | None = None, at: str | None = None, uuid: str | None = None,
+                  host: str | None = None, read_with: dict[str, Any] | None = None) -> Entry:
+        device = self.device_id() if host is None else host
+        with self._tx():
+            prev = self._x("SELECT id FROM entries WHERE job_id = %s AND item_id = %s"
+                           " ORDER BY at DESC, uuid DESC LIMIT 1", (job.id, item_id)).fetchone()
+            if at is None:
+                last = self._x("SELECT max(at) FROM entries WHERE job_id = %s",
+                               (job.id,)).fetchone()[0]
+                at = later_than(last)
+            row = self._x(
+                "INSERT INTO entries (uuid, job_id, item_id, action, raw, value_json,"
+                " unit_typed, instrument_id, at, by, supersedes, host, read_with)"
+                f" VALUES (%s,%s,%s,%s,%s,%s,%s,%s,%s,%s,%s,%s,%s) RETURNING {_ENTRY_COLS}",
+                (uuid or str(uuidlib.uuid4()), job.id, item_id, action, raw,
+                 json.dumps(value, ensure_ascii=False), unit_typed, instrument_id, at,
+                 by or self.who(), prev[0] if prev else None, device,
+                 json.dumps(read_with, sort_keys=True) if read_with else None)).fetchone()
+        return _entry(row)
+
+    def _entries(self, job_id: int, where: str = "") -> list[Entry]:
+        rows = self._x(f"SELECT {_ENTRY_COLS} FROM entries WHERE job_id = %s {where}"
+                       " ORDER BY at, uuid", (job_id,))
+        return [_entry(r) for r in rows]
+
+    def entries(self, job: Job) -> list[Entry]:
+        return self._entries(job.id)
+
+    def has_entry(self, uuid: str) -> bool:
+        return self._x("SELECT 1 FROM entries WHERE uuid = %s", (uuid,)).fetchone() is not None
+
+    # -- instruments -------------------------------------------------------------
+    def add_instrument(self, serial: str, make: str, model: str, calibration_due: str,
+                       accuracy: str = "", accuracy_read_as: str = "") -> Instrument:
+        with self._tx():
+            row = self._x(
+                "INSERT INTO instruments (serial, make, model, calibration_due, added_at,"
+                " accuracy, accuracy_read_as) VALUES (%s,%s,%s,%s,%s,%s,%s)"
+                " ON CONFLICT (serial) DO NOTHING RETURNING id",
+                (serial, make, model, calibration_due, now_iso(), accuracy,
+                 accuracy_read_as)).fetchone()
+        if row is None:
+            raise UserError(f"instrument '{serial}': already registered")
+        return self.instrument(row[0])
+
+    def instrument(self, instrument_id: int) -> Instrument:
+        row = self._x(f"SELECT {_INSTRUMENT_COLS} FROM instruments WHERE id = %s",
+                      (instrument_id,)).fetchone()
+        return Instrument(*row)
+
+    def instruments(self) -> list[Instrument]:
+        return [Instrument(*r) for r in
+                self._x(f"SELECT {_INSTRUMENT_COLS} FROM instruments ORDER BY id")]
+
+    def instrument_by_serial(self, serial: str) -> Instrument:
+        row = self._x(f"SELECT {_INSTRUMENT_COLS} FROM instruments WHERE serial = %s",
+                      (serial,)).fetchone()
+        if row is None:
+            known = ", ".join(i.serial for i in self.instruments()) or "none yet"
+            raise UserError(f"instrument '{serial}': not registered (registered: {known}; "
+                            "add it with 'commission instruments add')")
+        return Instrument(*row)
+
+    def instrument_in_use(self, job: Job) -> Instrument | None:
+        row = self._x("SELECT instrument_id FROM job_instrument WHERE job_id = %s",
+                      (job.id,)).fetchone()
+        return self.instrument(row[0]) if row and row[0] is not None else None
+
+    def set_instrument_in_use(self, job: Job, instrument: Instrument | None) -> None:
+        self._x("INSERT INTO job_instrument (job_id, instrument_id, at) VALUES (%s,%s,%s)"
+                " ON CONFLICT (job_id) DO UPDATE SET instrument_id = excluded.instrument_id,"
+                " at = excluded.at", (job.id, instrument.id if instrument else None, now_iso()))
+
+    def set_export_profile(self, serial: str, profile: dict[str, Any]) -> Instrument:
+        inst = self.instrument_by_serial(serial)
+        self._x("INSERT INTO export_profiles (instrument_id, profile_json, updated_at)"
+                " VALUES (%s,%s,%s) ON CONFLICT (instrument_id) DO UPDATE SET"
+                " profile_json = excluded.profile_json, updated_at = excluded.updated_at",
+                (inst.id, json.dumps(profile, sort_keys=True), now_iso()))
+        return inst
+
+    def export_profile_json(self, instrument_id: int) -> dict[str, Any] | None:
+        row = self._x("SELECT profile_json FROM export_profiles WHERE instrument_id = %s",
+                      (instrument_id,)).fetchone()
+        return json.loads(row[0]) if row else None
+
+    def export_profile(self, serial: str):
+        from ..analyses import ReadSettings, SettingsError
+
+        inst = self.instrument_by_serial(serial)
+        data = self.export_profile_json(inst.id)
+        if data is None:
+            raise UserError(f"instrument '{serial}': has no export profile; save one with "
+                            f"'commission instruments profile {serial} --columns ...'")
+        try:
+            return ReadSettings.from_json(data)
+        except SettingsError as exc:
+            raise UserError(f"instrument '{serial}': stored export profile: {exc}") from None
+
+    # -- files -------------------------------------------------------------------
+    def put_file(self, path: Path) -> tuple[str, int]:
+        """Store a file's bytes by SHA-256, streamed in 1 MiB chunks."""
+        try:
+            handle = path.open("rb")
+        except OSError as exc:
+            raise UserError(f"{path}: cannot read ({exc.strerror})") from None
+        with handle:
+            return self.put_stream(iter(lambda: handle.read(CHUNK), b""))
+
+    def put_stream(self, chunks: Iterator[bytes]) -> tuple[str, int]:
+        digest = hashlib.sha256()
+        size = 0
+        provisional = "partial-" + uuidlib.uuid4().hex
+        with self._tx():
+            for seq, chunk in enumerate(chunks):
+                digest.update(chunk)
+                size += len(chunk)
+                self._x("INSERT INTO blob_chunks (blob, seq, data) VALUES (%s,%s,%s)",
+                        (provisional, seq, chunk))
+            sha = digest.hexdigest()
+            if self.has_blob(sha):
+                self._x("DELETE FROM blob_chunks WHERE blob = %s", (provisional,))
+            else:
+                self._x("UPDATE blob_chunks SET blob = %s WHERE blob = %s", (sha, provisional))
+                self._x("INSERT INTO blobs (sha256, bytes, added_at) VALUES (%s,%s,%s)",
+                        (sha, size, now_iso()))
+        return sha, size
+
+    def read_blob(self, sha256: str) -> Iterator[bytes]:
+        seq = 0
+        while True:
+            row = self._x("SELECT data FROM blob_chunks WHERE blob = %s AND seq = %s",
+                          (sha256, seq)).fetchone()
+            if row is None:
+                return
+            yield bytes(row[0])
+            seq += 1
+
+    def has_blob(self, sha256: str) -> bool:
+        return self._x("SELECT 1 FROM blobs WHERE sha256 = %s", (sha256,)).fetchone() is not None
+
+    # -- locks and copies --------------------------------------------------------
+    def walk_lock(self, job: Job, take_over: bool = False):
+        from .lease import Lease
+
+        return Lease(self, job, take_over=take_over)
+
+    def backup(self, dest: Path) -> None:
+        raise UserError(f"{self.location}: a company register is backed up on its server "
+                        "(pg_dump); 'commission backup' copies a register file")
+
+
+def _first_line(exc: BaseException) -> str:
+    return (str(exc).strip().splitlines() or [type(exc).__name__])[0][:200]
+
+
+def _entry(row: tuple) -> Entry:
+    return Entry(row[0], row[1], row[2], row[3], row[4],
+                 json.loads(row[5]) if row[5] is not None else None,
+                 row[6], row[7], row[8], row[9], row[10], row[11],
+                 json.loads(row[12]) if row[12] else None)
