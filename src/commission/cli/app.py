@@ -7,6 +7,7 @@ import sys
 import typer
 
 from . import analyse, checklists, demo, forms, identity, instruments, jobs, report, walk
+from . import sync as sync_cmd
 from .common import friendly
 
 app = typer.Typer(
@@ -39,6 +40,8 @@ app.command("verify")(friendly(report.verify))
 app.command("import")(friendly(report.import_))
 app.command("blank")(friendly(report.blank))
 app.command("seal")(friendly(report.seal))
+app.command("sync")(friendly(sync_cmd.sync))
+app.command("confirm")(friendly(sync_cmd.confirm))
 
 
 def _plain(value: bool) -> bool:

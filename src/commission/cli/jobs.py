@@ -124,8 +124,10 @@ def show(
     with open_register(register, create=False) as reg:
         state = JobState(reg, reg.find_job(job))
         results = state.results()
+        flagged = [c for c in reg.conflicts(state.job) if not c["confirmed_at"]]
         if as_json:
-            emit_json(job_json(state, results))
+            emit_json({**job_json(state, results),
+                       "changed_on_two_devices": [c["item_id"] for c in flagged]})
             return
     import textwrap
 
@@ -152,6 +154,9 @@ def show(
     for reason in status_reasons(results):
         echo(textwrap.fill(f"- {reason}", WIDTH, initial_indent="  ",
                            subsequent_indent="    "))
+    for c in flagged:
+        echo(f"  changed on two devices: {c['item_id']} (both entries kept; the later is "
+             f"current; check it, then 'commission confirm {j.short_id} {c['item_id']}')")
     echo(textwrap.fill(SIGN_CONVENTION, WIDTH))
     for line in table(results, colour):
         echo(line)

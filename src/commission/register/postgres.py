@@ -23,6 +23,7 @@ from .pg_schema import PG_MIGRATIONS, PG_SCHEMA_VERSION
 from .store import (
     _ALPHABET,
     CHUNK,
+    CONFLICT_FIELDS,
     DETAIL_FIELDS,
     Entry,
     Instrument,
@@ -65,6 +66,7 @@ class PostgresRegister:
         self.read_only = False
         self._conn: Any = None
         self._device: str | None = None
+        self.hook: Any = None  # tests: called inside transactions, to cut the connection there
 
     # -- opening, closing, migrations ----------------------------------------
     def __enter__(self) -> PostgresRegister:
@@ -119,8 +121,7 @@ class PostgresRegister:
         return int(row[0])
 
     def _migrate(self) -> None:
-        conn = self.conn
-        with conn.transaction():
+        with self._tx():
             # one migrating client at a time (the key is arbitrary but fixed)
             self._x("SELECT pg_advisory_xact_lock(7351001)")
             exists = self._x("SELECT to_regclass('commission_schema')").fetchone()[0]
@@ -142,11 +143,21 @@ class PostgresRegister:
     @contextlib.contextmanager
     def batch(self) -> Iterator[None]:
         """One transaction around many writes: all of them are kept, or none."""
-        with self.conn.transaction():
+        with self._tx():
             yield
 
-    def _tx(self):
-        return self.conn.transaction()  # nested ones become savepoints inside batch()
+    @contextlib.contextmanager
+    def _tx(self) -> Iterator[None]:
+        """A transaction (a savepoint inside batch()); a connection lost on its way in or
+        out (the COMMIT) becomes one line: nothing unconfirmed was kept."""
+        import psycopg
+
+        try:
+            with self.conn.transaction():
+                yield
+        except psycopg.OperationalError as exc:
+            raise RegisterError(f"{self.location}: the connection failed "
+                                f"({_first_line(exc)}); nothing unconfirmed was kept") from None
 
     # -- device ----------------------------------------------------------------
     def device_id(self) -> str:
@@ -387,6 +398,8 @@ class PostgresRegister:
                 size += len(chunk)
                 self._x("INSERT INTO blob_chunks (blob, seq, data) VALUES (%s,%s,%s)",
                         (provisional, seq, chunk))
+                if self.hook:
+                    self.hook("inside file")
             sha = digest.hexdigest()
             if self.has_blob(sha):
                 self._x("DELETE FROM blob_chunks WHERE blob = %s", (provisional,))
@@ -408,6 +421,84 @@ class PostgresRegister:
 
     def has_blob(self, sha256: str) -> bool:
         return self._x("SELECT 1 FROM blobs WHERE sha256 = %s", (sha256,)).fetchone() is not None
+
+    # -- sync (see register/sync.py) ------------------------------------------------
+    def setting(self, key: str) -> str | None:
+        row = self._x("SELECT value FROM settings WHERE key = %s", (key,)).fetchone()
+        return row[0] if row else None
+
+    def entry_index(self, job: Job) -> dict[str, str]:
+        return dict(self._x("SELECT uuid, item_id FROM entries WHERE job_id = %s",
+                            (job.id,)).fetchall())
+
+    def entry_rows(self, job: Job, uuids: list[str]) -> list[tuple]:
+        rows = self._x(
+            "SELECT e.uuid, e.item_id, e.action, e.raw, e.value_json, e.unit_typed, i.serial,"
+            " e.at, e.by, e.host, e.read_with FROM entries e LEFT JOIN instruments i"
+            " ON i.id = e.instrument_id WHERE e.job_id = %s AND e.uuid = ANY(%s)"
+            " ORDER BY e.at, e.uuid", (job.id, list(uuids))).fetchall()
+        return [tuple(r) for r in rows]
+
+    def insert_entries(self, job: Job, rows: list[tuple]) -> int:
+        """Add portable entry rows (a union by UUID) in one transaction, through COPY into
+        a temporary table, so a sync costs about what a bulk COPY costs."""
+        cols = ("uuid, item_id, action, raw, value_json, unit_typed, serial, at, by, host,"
+                " read_with")
+        with self._tx():
+            self._x("CREATE TEMP TABLE IF NOT EXISTS sync_in (uuid TEXT, item_id TEXT,"
+                    " action TEXT, raw TEXT, value_json TEXT, unit_typed TEXT, serial TEXT,"
+                    " at TEXT, by TEXT, host TEXT, read_with TEXT) ON COMMIT DELETE ROWS")
+            with self.conn.cursor() as cur:
+                with cur.copy(f"COPY sync_in ({cols}) FROM STDIN") as copy:
+                    for r in rows:
+                        copy.write_row(r)
+                if self.hook:
+                    self.hook("inside entries")
+                cur.execute(
+                    "INSERT INTO entries (uuid, job_id, item_id, action, raw, value_json,"
+                    " unit_typed, instrument_id, at, by, host, read_with)"
+                    " SELECT s.uuid, %s, s.item_id, s.action, s.raw, s.value_json,"
+                    " s.unit_typed, i.id, s.at, s.by, s.host, s.read_with FROM sync_in s"
+                    " LEFT JOIN instruments i ON i.serial = s.serial"
+                    " ON CONFLICT (uuid) DO NOTHING", (job.id,))
+                return cur.rowcount
+
+    def job_row(self, job: Job) -> dict[str, Any]:
+        with self._tx(), self.conn.cursor() as cur:
+            cur.execute("SELECT * FROM jobs WHERE id = %s", (job.id,))
+            names = [d.name for d in cur.description]
+            row = cur.fetchone()
+        return {k: v for k, v in zip(names, row, strict=True) if k not in ("id", "assigned_to")}
+
+    def assign(self, job: Job, role: str) -> None:
+        """The office assigns a job to an installer (their database role)."""
+        self._x("UPDATE jobs SET assigned_to = %s WHERE id = %s", (role, job.id))
+
+    def jobs_assigned(self, role: str) -> list[Job]:
+        return [self._job(r) for r in self._x(
+            f"SELECT {_JOB_COLS} FROM jobs WHERE assigned_to = %s ORDER BY id", (role,))]
+
+    def role(self) -> str:
+        return self._x("SELECT session_user").fetchone()[0]
+
+    def conflicts(self, job: Job | None = None) -> list[dict[str, str]]:
+        sql = ("SELECT job_uuid, item_id, entry_uuids, flagged_at, confirmed_by, confirmed_at"
+               " FROM conflicts")
+        rows = (self._x(sql + " WHERE job_uuid = %s ORDER BY flagged_at, item_id",
+                        (job.uuid,)) if job else
+                self._x(sql + " ORDER BY flagged_at, item_id"))
+        return [dict(zip(CONFLICT_FIELDS, r, strict=True)) for r in rows]
+
+    def add_conflicts(self, rows: list[dict[str, str]]) -> None:
+        with self._tx():
+            for c in rows:
+                self._x(
+                    "INSERT INTO conflicts (job_uuid, item_id, entry_uuids, flagged_at,"
+                    " confirmed_by, confirmed_at) VALUES (%s,%s,%s,%s,%s,%s)"
+                    " ON CONFLICT (job_uuid, item_id, entry_uuids) DO UPDATE SET"
+                    " confirmed_by = excluded.confirmed_by, confirmed_at = excluded.confirmed_at"
+                    " WHERE conflicts.confirmed_at = '' AND excluded.confirmed_at != ''",
+                    tuple(c[k] for k in CONFLICT_FIELDS))
 
     # -- locks and copies --------------------------------------------------------
     def walk_lock(self, job: Job, take_over: bool = False):

@@ -111,3 +111,28 @@ class RegisterEngine(Protocol):
         when. ``take_over`` confirms taking over a lease that expired (PostgreSQL)."""
 
     def backup(self, dest: Path) -> None: ...
+
+    # -- sync (register/sync.py): portable rows, a union by UUID ---------------------
+    def who(self) -> str:
+        """The author of what is written now: a person's identity, never the OS user."""
+
+    def setting(self, key: str) -> str | None: ...
+
+    def entry_index(self, job: Job) -> dict[str, str]:
+        """{entry UUID: item id} of a job's entries."""
+
+    def entry_rows(self, job: Job, uuids: list[str]) -> list[tuple]:
+        """Entries as portable rows (``sync.ENTRY_FIELDS``)."""
+
+    def insert_entries(self, job: Job, rows: list[tuple]) -> int:
+        """Add portable rows, skipping UUIDs already here; one transaction."""
+
+    def job_row(self, job: Job) -> dict[str, Any]: ...
+
+    def put_stream(self, chunks: Iterator[bytes]) -> tuple[str, int]: ...
+
+    def conflicts(self, job: Job | None = None) -> list[dict[str, str]]:
+        """Items changed on two devices while apart, confirmed or not."""
+
+    def add_conflicts(self, rows: list[dict[str, str]]) -> None:
+        """A union of flags; a confirmation on either side is kept."""

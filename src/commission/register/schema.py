@@ -6,7 +6,7 @@ release is migrated on first use; a newer one is refused rather than damaged.
 
 from __future__ import annotations
 
-SCHEMA_VERSION = 7
+SCHEMA_VERSION = 8
 
 # Step n brings a register from version n-1 to n. Never edit a released step:
 # add the next one.
@@ -126,5 +126,19 @@ MIGRATIONS: dict[int, str] = {
     );
     ALTER TABLE jobs ADD COLUMN imported TEXT NOT NULL DEFAULT '';
     ALTER TABLE jobs ADD COLUMN recorded TEXT NOT NULL DEFAULT '';
+    """,
+    # 8: sync with a company register (issue 15). An item changed on two devices while
+    # they were apart is flagged in `conflicts` (the job by UUID, the item, the entries
+    # involved) until someone confirms it; the flags travel with sync (a union).
+    8: """
+    CREATE TABLE conflicts (
+        job_uuid TEXT NOT NULL,
+        item_id TEXT NOT NULL,
+        entry_uuids TEXT NOT NULL,
+        flagged_at TEXT NOT NULL,
+        confirmed_by TEXT NOT NULL DEFAULT '',
+        confirmed_at TEXT NOT NULL DEFAULT '',
+        PRIMARY KEY (job_uuid, item_id, entry_uuids)
+    );
     """,
 }

@@ -37,6 +37,8 @@ DETAIL_FIELDS = (
     "language",
     "next_inspection",
 )
+CONFLICT_FIELDS = ("job_uuid", "item_id", "entry_uuids", "flagged_at", "confirmed_by",
+                   "confirmed_at")
 # Short job ids: unambiguous letters and digits (no 0/O, 1/I/L, U), typed on site.
 _ALPHABET = "23456789ABCDEFGHJKMNPQRSTVWXYZ"
 
@@ -330,8 +332,11 @@ class Register:
     # -- jobs ----------------------------------------------------------------
     def create_job(self, checklist, details: dict[str, str], by: str | None = None) -> Job:
         """``checklist`` is a :class:`commission.checklist.Loaded`."""
+        # After this device joined a company register, its ids start with the device's
+        # prefix (unique in the company): 6 characters, never equal to another device's.
+        prefix = self.setting("short_id_prefix") or ""
         for _ in range(20):
-            short = "".join(secrets.choice(_ALPHABET) for _ in range(5))
+            short = prefix + "".join(secrets.choice(_ALPHABET) for _ in range(4 if prefix else 5))
             if not self.db.execute("SELECT 1 FROM jobs WHERE short_id = ?", (short,)).fetchone():
                 break
         return self.insert_job(
@@ -620,6 +625,87 @@ class Register:
                     "SELECT value FROM settings WHERE key = 'device_id'").fetchone()
             self._device = row[0]
         return self._device
+
+    # -- sync (see register/sync.py) ------------------------------------------
+    def who(self) -> str:
+        return who()
+
+    def setting(self, key: str) -> str | None:
+        row = self.db.execute("SELECT value FROM settings WHERE key = ?", (key,)).fetchone()
+        return row[0] if row else None
+
+    def set_setting(self, key: str, value: str) -> None:
+        with self._transaction():
+            self._write("INSERT INTO settings (key, value) VALUES (?, ?) ON CONFLICT(key)"
+                        " DO UPDATE SET value = excluded.value", (key, value))
+
+    def entry_index(self, job: Job) -> dict[str, str]:
+        """{entry UUID: item id} of a job's entries."""
+        return dict(self.db.execute("SELECT uuid, item_id FROM entries WHERE job_id = ?",
+                                    (job.id,)).fetchall())
+
+    def entry_rows(self, job: Job, uuids: list[str]) -> list[tuple]:
+        """Entries as portable rows (``sync.ENTRY_FIELDS``: the instrument by serial, value
+        and profile as their stored JSON text), in (entry time, UUID) order."""
+        out: list[tuple] = []
+        for start in range(0, len(uuids), 500):
+            part = uuids[start:start + 500]
+            out += self.db.execute(
+                "SELECT e.uuid, e.item_id, e.action, e.raw, e.value_json, e.unit_typed,"
+                " i.serial, e.at, e.by, e.host, e.read_with FROM entries e LEFT JOIN"
+                " instruments i ON i.id = e.instrument_id WHERE e.job_id = ? AND e.uuid IN ("
+                + ",".join("?" * len(part)) + ")", (job.id, *part)).fetchall()
+        return sorted(out, key=lambda r: (r[7], r[0]))
+
+    def insert_entries(self, job: Job, rows: list[tuple]) -> int:
+        """Add portable entry rows to a job, skipping any UUID already here (a union);
+        one transaction. Returns how many were new."""
+        serials = {i.serial: i.id for i in self.instruments()}
+        with self._transaction():
+            before = self.db.total_changes
+            self.db.executemany(
+                "INSERT INTO entries (uuid, job_id, item_id, action, raw, value_json,"
+                " unit_typed, instrument_id, at, by, host, read_with)"
+                " VALUES (?,?,?,?,?,?,?,?,?,?,?,?) ON CONFLICT(uuid) DO NOTHING",
+                [(r[0], job.id, r[1], r[2], r[3], r[4], r[5], serials.get(r[6] or ""), r[7],
+                  r[8], r[9], r[10]) for r in rows])
+            return self.db.total_changes - before
+
+    def job_row(self, job: Job) -> dict[str, Any]:
+        row = self.db.execute("SELECT * FROM jobs WHERE id = ?", (job.id,)).fetchone()
+        cols = [c[1] for c in self.db.execute("PRAGMA table_info(jobs)")]
+        return {k: v for k, v in zip(cols, row, strict=True) if k != "id"}
+
+    def put_stream(self, chunks: Iterator[bytes]) -> tuple[str, int]:
+        """Store bytes arriving chunk by chunk (another register's blob) by SHA-256."""
+        import tempfile
+
+        with tempfile.NamedTemporaryFile(prefix="commission-sync-") as tmp:
+            for chunk in chunks:
+                tmp.write(chunk)
+            tmp.flush()
+            return self.put_file(Path(tmp.name))
+
+    def conflicts(self, job: Job | None = None) -> list[dict[str, str]]:
+        """Items changed on two devices while apart (``job`` None: every job)."""
+        sql = ("SELECT job_uuid, item_id, entry_uuids, flagged_at, confirmed_by, confirmed_at"
+               " FROM conflicts")
+        rows = (self.db.execute(sql + " WHERE job_uuid = ? ORDER BY flagged_at, item_id",
+                                (job.uuid,)) if job else
+                self.db.execute(sql + " ORDER BY flagged_at, item_id"))
+        return [dict(zip(CONFLICT_FIELDS, r, strict=True)) for r in rows]
+
+    def add_conflicts(self, rows: list[dict[str, str]]) -> None:
+        """Union of conflict flags; a confirmation on either side is kept."""
+        with self._transaction():
+            for c in rows:
+                self._write(
+                    "INSERT INTO conflicts (job_uuid, item_id, entry_uuids, flagged_at,"
+                    " confirmed_by, confirmed_at) VALUES (?,?,?,?,?,?)"
+                    " ON CONFLICT(job_uuid, item_id, entry_uuids) DO UPDATE SET"
+                    " confirmed_by = excluded.confirmed_by, confirmed_at = excluded.confirmed_at"
+                    " WHERE conflicts.confirmed_at = '' AND excluded.confirmed_at != ''",
+                    tuple(c[k] for k in CONFLICT_FIELDS))
 
     # -- helpers -------------------------------------------------------------
     def _transaction(self):
