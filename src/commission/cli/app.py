@@ -42,6 +42,7 @@ app.command("blank")(friendly(report.blank))
 app.command("seal")(friendly(report.seal))
 app.command("sync")(friendly(sync_cmd.sync))
 app.command("confirm")(friendly(sync_cmd.confirm))
+app.command("assign")(friendly(sync_cmd.assign))
 
 
 def _plain(value: bool) -> bool:

@@ -85,3 +85,24 @@ def confirm(
         reg.add_conflicts([{**c, "confirmed_by": reg.who(), "confirmed_at": now_iso()}
                            for c in open_])
     typer.echo(f"job {target.short_id}: {item} confirmed")
+
+
+def assign(
+    job: Annotated[str, typer.Argument(help="Job id or UUID.")],
+    to: Annotated[str, typer.Option("--to", help="The installer's database role.")],
+    register: Annotated[
+        str | None, typer.Option("--register", help="The company register's URL.",
+                                 show_default=False)] = None,
+) -> None:
+    """Assign a job in the company register to an installer (the office's task); their
+    next sync brings it to their laptop."""
+    from ..errors import UserError
+    from ..register.postgres import PostgresRegister
+
+    with open_register(register, create=False) as reg:
+        if not isinstance(reg, PostgresRegister):
+            raise UserError("assign: jobs are assigned in a company register (give "
+                            "--register postgresql://…)")
+        target = reg.find_job(job)
+        reg.assign(target, to.strip())
+    typer.echo(f"job {target.short_id} assigned to {to.strip()}")

@@ -11,7 +11,7 @@ prefixes that keep short job ids unique across a company's laptops.
 
 from __future__ import annotations
 
-PG_SCHEMA_VERSION = 1
+PG_SCHEMA_VERSION = 2
 
 PG_MIGRATIONS: dict[int, str] = {
     1: """
@@ -127,5 +127,71 @@ PG_MIGRATIONS: dict[int, str] = {
         since TEXT NOT NULL,
         expires TEXT NOT NULL
     );
+    """,
+    # 2: who may do what (issue 15). Three group roles; a person's login role is made a
+    # member of one (GRANT commission_installer TO alice). Nobody but the owner may update
+    # or delete an entry. Row-level security: an installer sees and writes only the jobs
+    # assigned to them; reviewers read every job and add review entries
+    # (countersignatures); the office creates and assigns jobs and amends their details.
+    # Roles are cluster-wide, so they are made only when missing.
+    2: """
+    DO $$ BEGIN
+        IF NOT EXISTS (SELECT FROM pg_roles WHERE rolname = 'commission_installer') THEN
+            CREATE ROLE commission_installer NOLOGIN; END IF;
+        IF NOT EXISTS (SELECT FROM pg_roles WHERE rolname = 'commission_reviewer') THEN
+            CREATE ROLE commission_reviewer NOLOGIN; END IF;
+        IF NOT EXISTS (SELECT FROM pg_roles WHERE rolname = 'commission_office') THEN
+            CREATE ROLE commission_office NOLOGIN; END IF;
+    END $$;
+    REVOKE ALL ON ALL TABLES IN SCHEMA public FROM PUBLIC;
+    GRANT SELECT ON ALL TABLES IN SCHEMA public
+        TO commission_installer, commission_reviewer, commission_office;
+    GRANT INSERT ON entries, blobs, blob_chunks, conflicts, leases, devices, settings,
+        job_instrument, export_profiles
+        TO commission_installer, commission_reviewer, commission_office;
+    GRANT UPDATE ON conflicts, leases, job_instrument, export_profiles, blob_chunks
+        TO commission_installer, commission_reviewer, commission_office;
+    GRANT DELETE ON leases, blob_chunks
+        TO commission_installer, commission_reviewer, commission_office;
+    GRANT INSERT ON jobs, instruments TO commission_installer, commission_office;
+    GRANT UPDATE (assigned_to) ON jobs TO commission_office;
+
+    ALTER TABLE jobs ENABLE ROW LEVEL SECURITY;
+    CREATE POLICY installer_reads_own ON jobs FOR SELECT TO commission_installer
+        USING (assigned_to = current_user);
+    CREATE POLICY installer_adds_own ON jobs FOR INSERT TO commission_installer
+        WITH CHECK (assigned_to = current_user);
+    CREATE POLICY staff_read_all ON jobs FOR SELECT
+        TO commission_reviewer, commission_office USING (true);
+    CREATE POLICY office_adds ON jobs FOR INSERT TO commission_office WITH CHECK (true);
+    CREATE POLICY office_assigns ON jobs FOR UPDATE TO commission_office
+        USING (true) WITH CHECK (true);
+
+    ALTER TABLE entries ENABLE ROW LEVEL SECURITY;
+    CREATE POLICY installer_reads_own ON entries FOR SELECT TO commission_installer
+        USING (job_id IN (SELECT id FROM jobs WHERE assigned_to = current_user));
+    CREATE POLICY installer_adds_own ON entries FOR INSERT TO commission_installer
+        WITH CHECK (job_id IN (SELECT id FROM jobs WHERE assigned_to = current_user));
+    CREATE POLICY staff_read_all ON entries FOR SELECT
+        TO commission_reviewer, commission_office USING (true);
+    CREATE POLICY reviewer_adds_review ON entries FOR INSERT TO commission_reviewer
+        WITH CHECK (item_id LIKE 'review.%');
+    CREATE POLICY office_adds_details ON entries FOR INSERT TO commission_office
+        WITH CHECK (action = 'detail');
+
+    ALTER TABLE conflicts ENABLE ROW LEVEL SECURITY;
+    CREATE POLICY installer_own ON conflicts TO commission_installer
+        USING (job_uuid IN (SELECT uuid FROM jobs WHERE assigned_to = current_user));
+    CREATE POLICY staff_all ON conflicts TO commission_reviewer, commission_office
+        USING (true);
+
+    -- a file's chunks arrive under a provisional name and are renamed (or dropped when
+    -- the file is already here): only provisional rows may change
+    ALTER TABLE blob_chunks ENABLE ROW LEVEL SECURITY;
+    CREATE POLICY read_all ON blob_chunks FOR SELECT USING (true);
+    CREATE POLICY add_all ON blob_chunks FOR INSERT WITH CHECK (true);
+    CREATE POLICY rename_provisional ON blob_chunks FOR UPDATE
+        USING (blob LIKE 'partial-%') WITH CHECK (true);
+    CREATE POLICY drop_provisional ON blob_chunks FOR DELETE USING (blob LIKE 'partial-%');
     """,
 }

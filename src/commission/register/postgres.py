@@ -105,7 +105,7 @@ class PostgresRegister:
         import psycopg
 
         try:
-            return self.conn.execute(sql, args)
+            return self.conn.execute(sql, args or None)
         except psycopg.errors.InsufficientPrivilege as exc:
             raise RegisterError(f"{self.location}: not allowed for this database role "
                                 f"({_first_line(exc)}); nothing was changed") from None
@@ -175,7 +175,7 @@ class PostgresRegister:
         """The short-id prefix of a device, given the first time it joins (two letters of
         the short-id alphabet, never reused)."""
         with self._tx():
-            self._x("LOCK TABLE devices IN SHARE ROW EXCLUSIVE MODE")
+            self._x("SELECT pg_advisory_xact_lock(7351002)")  # one prefix at a time
             row = self._x("SELECT prefix FROM devices WHERE device_id = %s",
                           (device_id,)).fetchone()
             if row:
@@ -226,7 +226,7 @@ class PostgresRegister:
                  checklist.checklist.id, checklist.checklist.version, checklist.sha256,
                  checklist.text, checklist.name, imported,
                  json.dumps(recorded, ensure_ascii=False) if recorded else "",
-                 assigned_to)).fetchone()
+                 assigned_to or self.role())).fetchone()
         return self.job(row[0])
 
     def job(self, job_id: int) -> Job:
@@ -472,7 +472,10 @@ class PostgresRegister:
 
     def assign(self, job: Job, role: str) -> None:
         """The office assigns a job to an installer (their database role)."""
-        self._x("UPDATE jobs SET assigned_to = %s WHERE id = %s", (role, job.id))
+        done = self._x("UPDATE jobs SET assigned_to = %s WHERE id = %s", (role, job.id))
+        if done.rowcount != 1:
+            raise RegisterError(f"{self.location}: job {job.short_id} cannot be assigned by "
+                                "this database role (the office assigns jobs)")
 
     def jobs_assigned(self, role: str) -> list[Job]:
         return [self._job(r) for r in self._x(
