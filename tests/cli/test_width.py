@@ -137,6 +137,10 @@ def commands(world) -> list[tuple[str, list[str]]]:
         ("walk", ["walk", job, "--item", "nosuch.item"]),
         ("verify", ["verify", str(files / "clamp-capture.csv")]),
         ("new", ["new", "--checklist", str(base / "missing.yaml"), "--site", "S"]),
+        # the company-register commands, on a register file: their one-line refusals
+        ("sync", ["sync"]),
+        ("confirm", ["confirm", job, "supply.voltage"]),
+        ("assign", ["assign", job, "--to", "alice"]),
     ]
 
 

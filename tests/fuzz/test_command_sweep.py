@@ -149,6 +149,9 @@ TEXTS = [
     ("analyse-option", ["analyse", "heating", "{HEATING}", "--volume-l", "{T}", "--power-w",
                         "{T}"]),
     ("analyse-columns", ["analyse", "capture", "{CAPTURE}", "--columns", "{T}"]),
+    ("sync-register", ["sync", "--register", "{T}"]),
+    ("confirm", ["confirm", "{JOB}", "--", "{T}"]),
+    ("assign", ["assign", "--to", "x", "--", "{T}"]),
 ]
 ODD_TEXTS = ["", " ", "-x", "--help-me", "ünïcødé Ω", "x" * 5000, "'; DROP TABLE jobs; --",
              "%", "%%%%%%%%%", "a\nb", "\x00", "\u202e", "1e999", "nan", "-1"]
