@@ -261,7 +261,9 @@ def test_register_from_schema_6_migrates_on_first_use(cli, tmp_path):
     assert listed.exit_code == 0, listed.output
     (job,) = json.loads(listed.stdout)
     assert job["unverified"] is False and job["site"] == "Fixture Site"
-    assert sqlite3.connect(copy).execute("PRAGMA user_version").fetchone()[0] == 7
+    from commission.register.schema import SCHEMA_VERSION
+
+    assert sqlite3.connect(copy).execute("PRAGMA user_version").fetchone()[0] == SCHEMA_VERSION
     out = tmp_path / "r.pdf"
     made = cli("report", job["id"], "--out", out, "--register", copy)
     assert made.exit_code == 0, made.output
