@@ -111,6 +111,16 @@ class JobState:
     def status(self, results: list[Result] | None = None) -> str:
         return job_status(results if results is not None else self.results())
 
+    def remember_status(self) -> str:
+        """Derive the status and leave it in the register's status cache for `jobs`."""
+        from .status_cache import entry_key
+
+        status = self.status()
+        last = next((e for e in reversed(self.entries) if e.action != "detail"), None)
+        self.reg.remember_status(self.job, entry_key(last.at, last.uuid) if last else "",
+                                 status)
+        return status
+
     def current(self, item_id: str) -> Entry | None:
         found = None
         for e in self.entries:

@@ -49,6 +49,9 @@ def new(
                                  next_inspection=next_inspection)}
     with open_register(register) as reg:
         job = reg.create_job(loaded, details)
+        from ..job import JobState
+
+        JobState(reg, job).remember_status()
         typer.echo(f"job for {job.details['site']} on {loaded.checklist.id} "
                    f"{loaded.checklist.version}, register {reg.location}")
         typer.echo(job.short_id)
@@ -86,28 +89,79 @@ def checked_details(**given: str | None) -> dict[str, str]:
     return out
 
 
-def jobs(register: RegisterOpt = None, as_json: JsonOpt = False) -> None:
-    """List the jobs in the register with their status."""
-    from ..job import JobState
-
+def jobs(
+    register: RegisterOpt = None,
+    as_json: JsonOpt = False,
+    status: Annotated[str | None, typer.Option(
+        help="Only jobs whose last derived status is this (ready, incomplete, not-ready).",
+        show_default=False)] = None,
+    installer: Annotated[str | None, typer.Option(
+        help="Only this installer's jobs (the job's installer; on a company register also "
+        "the database role it is assigned to).", show_default=False)] = None,
+    due: Annotated[str | None, typer.Option(
+        help="Only jobs whose next inspection falls on or before this date: YYYY-MM-DD, or "
+        "a number of days from today such as 60d.", show_default=False)] = None,
+    page: Annotated[int, typer.Option(min=1, help="Page to show.")] = 1,
+    page_size: Annotated[int, typer.Option(min=0, help="Jobs per page (0: all).")] = 100,
+    refresh: Annotated[bool, typer.Option(
+        "--refresh", help="Derive again the statuses on this page that are not current "
+        "(after an upgrade or a sync).")] = False,
+) -> None:
+    """List the jobs in the register with their last derived status (a page at a time)."""
+    due_date = _due(due) if due is not None else None
     with open_register(register) as reg:
-        rows = []
-        for job in reg.jobs():
-            state = JobState(reg, job)
-            rows.append((job, state.status()))
+        rows, total = reg.list_jobs(status=status, installer=installer, due=due_date,
+                                    page=page, size=page_size)
+        if refresh and any(not fresh for _j, _s, fresh in rows):
+            from ..job import JobState
+
+            rows = [(job, st, True) if fresh else (job, JobState(reg, job).remember_status(),
+                                                   True) for job, st, fresh in rows]
     if as_json:
-        emit_json([{**job.as_json(), "status": status, "unverified": job.unverified}
-               for job, status in rows])
+        emit_json([{**job.as_json(), "status": st or "not derived", "status_current": fresh,
+                    "unverified": job.unverified} for job, st, fresh in rows])
         return
     if not rows:
-        typer.echo("no jobs yet: start one with 'commission new --checklist NAME --site TEXT'")
+        if total or status or installer or due:
+            typer.echo("no jobs match" if not total else f"no jobs on page {page} "
+                       f"(there are {total})")
+        else:
+            typer.echo("no jobs yet: start one with 'commission new --checklist NAME "
+                       "--site TEXT'")
         return
     from ..record import safe
 
-    for job, status in rows:
+    stale = 0
+    for job, st, fresh in rows:
         mark = "  UNVERIFIED import" if job.unverified else ""
-        typer.echo(f"{job.short_id}  {status:<10}  {job.created_at[:10]}  "
+        shown = st or "not derived"
+        if not fresh:
+            shown += "*"
+            stale += 1
+        typer.echo(f"{job.short_id}  {shown:<12}  {job.created_at[:10]}  "
                    f"{safe(job.details['site'][:40])}{mark}")
+    if stale:
+        typer.echo(f"* {stale} status(es) not derived since the last change or upgrade; "
+                   "'commission jobs --refresh' derives this page")
+    if page_size and total > page * page_size:
+        pages = -(-total // page_size)
+        typer.echo(f"page {page} of {pages} ({total} jobs); --page {page + 1} for more")
+
+
+def _due(text: str) -> str:
+    """--due as an ISO date: YYYY-MM-DD, or Nd days from today."""
+    import datetime as dt
+
+    from ..errors import UserError
+
+    text = text.strip()
+    try:
+        if text.lower().endswith("d") and text[:-1].isdigit():
+            return (dt.date.today() + dt.timedelta(days=int(text[:-1]))).isoformat()
+        return dt.date.fromisoformat(text).isoformat()
+    except (ValueError, OverflowError):
+        raise UserError(f"--due {text}: not a date (accepted: YYYY-MM-DD, or days from "
+                        "today such as 60d)") from None
 
 
 def show(
@@ -124,6 +178,7 @@ def show(
     with open_register(register, create=False) as reg:
         state = JobState(reg, reg.find_job(job))
         results = state.results()
+        state.remember_status()
         flagged = [c for c in reg.conflicts(state.job) if not c["confirmed_at"]]
         if as_json:
             emit_json({**job_json(state, results),

@@ -122,6 +122,7 @@ def report(
     with open_register(register, create=False) as reg:
         state = JobState(reg, reg.find_job(job))
         made = make(state, form_data, sign=sign, passphrase=passphrase)
+        state.remember_status()
         state.files.close()
     kept = _check_out(out, force, sign)
     _write(out, made.pdf)

@@ -89,7 +89,7 @@ def walk(
                 report = apply_answers(state, answers, inst.serial if inst else None)
                 for item_id, message in report.rejected:
                     typer.echo(f"{item_id}: {message}", err=True)
-                status = state.status()
+                status = state.remember_status()
                 typer.echo(f"{report.added} answers added, {report.unchanged} unchanged, "
                            f"{len(report.rejected)} rejected; job {target.short_id} is {status}")
                 if report.rejected:
@@ -105,5 +105,6 @@ def walk(
             from ..walk.session import Walk
 
             code = Walk(state, _Tty(), inst, start=item).run()
+            state.remember_status()
     if code:
         raise typer.Exit(code)

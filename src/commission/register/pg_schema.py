@@ -11,7 +11,7 @@ prefixes that keep short job ids unique across a company's laptops.
 
 from __future__ import annotations
 
-PG_SCHEMA_VERSION = 2
+PG_SCHEMA_VERSION = 3
 
 PG_MIGRATIONS: dict[int, str] = {
     1: """
@@ -193,5 +193,79 @@ PG_MIGRATIONS: dict[int, str] = {
     CREATE POLICY rename_provisional ON blob_chunks FOR UPDATE
         USING (blob LIKE 'partial-%') WITH CHECK (true);
     CREATE POLICY drop_provisional ON blob_chunks FOR DELETE USING (blob LIKE 'partial-%');
+    """,
+    # 3: `jobs` at company scale: job heads kept by triggers and the status cache (see
+    # SQLite step 9 for what each holds). Heads follow the jobs' row-level security.
+    3: """
+    CREATE TABLE job_heads (
+        job_id BIGINT PRIMARY KEY REFERENCES jobs(id),
+        last_entry TEXT COLLATE "C" NOT NULL DEFAULT '',
+        site TEXT NOT NULL DEFAULT '',
+        site_key TEXT COLLATE "C" NOT NULL DEFAULT '',
+        installer TEXT NOT NULL DEFAULT '',
+        installer_key TEXT COLLATE "C" NOT NULL DEFAULT '',
+        next_inspection TEXT NOT NULL DEFAULT '',
+        next_inspection_key TEXT COLLATE "C" NOT NULL DEFAULT ''
+    );
+    INSERT INTO job_heads (job_id, last_entry, site, installer, next_inspection)
+        SELECT j.id, coalesce((SELECT max(e.at || ' ' || e.uuid) FROM entries e
+                               WHERE e.job_id = j.id AND e.action != 'detail'), ''),
+               j.site, j.installer, j.next_inspection FROM jobs j;
+    CREATE INDEX job_heads_installer ON job_heads (installer);
+    CREATE INDEX job_heads_next_inspection ON job_heads (next_inspection);
+    CREATE FUNCTION commission_job_head() RETURNS trigger LANGUAGE plpgsql
+        SECURITY DEFINER SET search_path = public AS $$
+    BEGIN
+        IF TG_TABLE_NAME = 'jobs' THEN
+            INSERT INTO job_heads (job_id, site, installer, next_inspection)
+            VALUES (NEW.id, NEW.site, NEW.installer, NEW.next_inspection);
+            RETURN NEW;
+        END IF;
+        IF NEW.action != 'detail' THEN
+            UPDATE job_heads SET last_entry = NEW.at || ' ' || NEW.uuid
+                WHERE job_id = NEW.job_id AND last_entry < NEW.at || ' ' || NEW.uuid;
+        ELSIF NEW.item_id = 'job.site' THEN
+            UPDATE job_heads SET site = NEW.value_json::json #>> '{}',
+                site_key = NEW.at || ' ' || NEW.uuid
+                WHERE job_id = NEW.job_id AND site_key < NEW.at || ' ' || NEW.uuid;
+        ELSIF NEW.item_id = 'job.installer' THEN
+            UPDATE job_heads SET installer = NEW.value_json::json #>> '{}',
+                installer_key = NEW.at || ' ' || NEW.uuid
+                WHERE job_id = NEW.job_id AND installer_key < NEW.at || ' ' || NEW.uuid;
+        ELSIF NEW.item_id = 'job.next_inspection' THEN
+            UPDATE job_heads SET next_inspection = NEW.value_json::json #>> '{}',
+                next_inspection_key = NEW.at || ' ' || NEW.uuid
+                WHERE job_id = NEW.job_id
+                AND next_inspection_key < NEW.at || ' ' || NEW.uuid;
+        END IF;
+        RETURN NEW;
+    END $$;
+    CREATE TRIGGER job_heads_new_job AFTER INSERT ON jobs
+        FOR EACH ROW EXECUTE FUNCTION commission_job_head();
+    CREATE TRIGGER job_heads_new_entry AFTER INSERT ON entries
+        FOR EACH ROW EXECUTE FUNCTION commission_job_head();
+    CREATE TABLE job_status (
+        job_id BIGINT PRIMARY KEY REFERENCES jobs(id),
+        last_entry TEXT COLLATE "C" NOT NULL,
+        checklist_sha256 TEXT NOT NULL,
+        check_logic INTEGER NOT NULL,
+        status TEXT NOT NULL,
+        derived_at TEXT NOT NULL
+    );
+    CREATE INDEX job_status_status ON job_status (status);
+    GRANT SELECT ON job_heads TO commission_installer, commission_reviewer,
+        commission_office;
+    ALTER TABLE job_heads ENABLE ROW LEVEL SECURITY;
+    ALTER TABLE job_status ENABLE ROW LEVEL SECURITY;
+    CREATE POLICY installer_own ON job_heads TO commission_installer
+        USING (job_id IN (SELECT id FROM jobs WHERE assigned_to = current_user));
+    CREATE POLICY staff_all ON job_heads TO commission_reviewer, commission_office
+        USING (true);
+    CREATE POLICY installer_own ON job_status TO commission_installer
+        USING (job_id IN (SELECT id FROM jobs WHERE assigned_to = current_user));
+    CREATE POLICY staff_all ON job_status TO commission_reviewer, commission_office
+        USING (true);
+    GRANT SELECT, INSERT, UPDATE ON job_status TO commission_installer,
+        commission_reviewer, commission_office;
     """,
 }

@@ -422,6 +422,48 @@ class PostgresRegister:
     def has_blob(self, sha256: str) -> bool:
         return self._x("SELECT 1 FROM blobs WHERE sha256 = %s", (sha256,)).fetchone() is not None
 
+
+    def list_jobs(self, *, status: str | None = None, installer: str | None = None,
+                  due: str | None = None, page: int = 1, size: int = 100
+                  ) -> tuple[list[tuple[Job, str | None, bool]], int]:
+        """One page of jobs (oldest first) with the cached status and whether it is
+        current (see ``status_cache``); filters run in the database. ``due``: a next
+        inspection on or before this ISO date. ``size`` 0: every job."""
+        from ..status_cache import check_logic_version
+
+        where, args = ["true"], []
+        if status:
+            where.append("s.status = %s")
+            args.append(status)
+        if installer:
+            where.append("(h.installer = %s OR j.assigned_to = %s)")
+            args += [installer, installer]
+        if due:
+            where.append("h.next_inspection != '' AND h.next_inspection <= %s")
+            args.append(due)
+        base = (" FROM jobs j JOIN job_heads h ON h.job_id = j.id LEFT JOIN job_status s"
+                " ON s.job_id = j.id WHERE " + " AND ".join(where))
+        total = self._x("SELECT count(*)" + base, args).fetchone()[0]
+        limit = f" LIMIT {int(size)} OFFSET {int(size) * (max(page, 1) - 1)}" if size else ""
+        rows = self._x(
+            "SELECT j.id, s.status, coalesce(s.last_entry = h.last_entry AND"
+            " s.checklist_sha256 = j.checklist_sha256 AND s.check_logic = %s, false)"
+            + base + " ORDER BY j.id" + limit, [check_logic_version(), *args]).fetchall()
+        return [(self.job(r[0]), r[1], bool(r[2])) for r in rows], total
+
+    def remember_status(self, job: Job, last_entry: str, status: str) -> None:
+        from ..status_cache import check_logic_version
+
+        with contextlib.suppress(RegisterError):
+            self._x(
+                "INSERT INTO job_status (job_id, last_entry, checklist_sha256, check_logic,"
+                " status, derived_at) VALUES (%s,%s,%s,%s,%s,%s) ON CONFLICT (job_id) DO"
+                " UPDATE SET last_entry = excluded.last_entry, checklist_sha256 ="
+                " excluded.checklist_sha256, check_logic = excluded.check_logic,"
+                " status = excluded.status, derived_at = excluded.derived_at",
+                (job.id, last_entry, job.checklist_sha256, check_logic_version(), status,
+                 now_iso()))
+
     # -- sync (see register/sync.py) ------------------------------------------------
     def setting(self, key: str) -> str | None:
         row = self._x("SELECT value FROM settings WHERE key = %s", (key,)).fetchone()

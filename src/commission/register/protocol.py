@@ -112,6 +112,17 @@ class RegisterEngine(Protocol):
 
     def backup(self, dest: Path) -> None: ...
 
+
+    def list_jobs(self, *, status: str | None = None, installer: str | None = None,
+                  due: str | None = None, page: int = 1, size: int = 100
+                  ) -> tuple[list[tuple[Job, str | None, bool]], int]:
+        """One page of jobs (oldest first) with the cached status and whether it is
+        current (see ``status_cache``); filters run in the database. ``due``: a next
+        inspection on or before this ISO date. ``size`` 0: every job."""
+
+    def remember_status(self, job: Job, last_entry: str, status: str) -> None:
+        """Cache a derived status under its key (never read by show, report, verify)."""
+
     # -- sync (register/sync.py): portable rows, a union by UUID ---------------------
     def who(self) -> str:
         """The author of what is written now: a person's identity, never the OS user."""

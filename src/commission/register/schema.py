@@ -6,7 +6,7 @@ release is migrated on first use; a newer one is refused rather than damaged.
 
 from __future__ import annotations
 
-SCHEMA_VERSION = 8
+SCHEMA_VERSION = 9
 
 # Step n brings a register from version n-1 to n. Never edit a released step:
 # add the next one.
@@ -140,5 +140,78 @@ MIGRATIONS: dict[int, str] = {
         confirmed_at TEXT NOT NULL DEFAULT '',
         PRIMARY KEY (job_uuid, item_id, entry_uuids)
     );
+    """,
+    # 9: `jobs` at company scale (issue 15). `job_heads` keeps, per job, the key of its
+    # last non-detail entry ("<entry time> <UUID>") and the current site, installer and
+    # next inspection date (amendments applied), kept up to date by triggers, so listing and
+    # filtering read one row per job. `job_status` caches the last status derived, with the
+    # key it was derived under (last entry, checklist SHA-256, check-logic version): shown by
+    # `jobs`, marked when stale, never read by `show`, `report` or `verify`.
+    9: """
+    CREATE TABLE job_heads (
+        job_id INTEGER PRIMARY KEY REFERENCES jobs(id),
+        last_entry TEXT NOT NULL DEFAULT '',
+        site TEXT NOT NULL DEFAULT '',
+        site_key TEXT NOT NULL DEFAULT '',
+        installer TEXT NOT NULL DEFAULT '',
+        installer_key TEXT NOT NULL DEFAULT '',
+        next_inspection TEXT NOT NULL DEFAULT '',
+        next_inspection_key TEXT NOT NULL DEFAULT ''
+    );
+    INSERT INTO job_heads (job_id, last_entry, site, installer, next_inspection)
+        SELECT j.id, coalesce((SELECT max(e.at || ' ' || e.uuid) FROM entries e
+                               WHERE e.job_id = j.id AND e.action != 'detail'), ''),
+               j.site, j.installer, j.next_inspection FROM jobs j;
+    UPDATE job_heads SET (site, site_key) = (
+        SELECT json_extract(e.value_json, '$'), e.at || ' ' || e.uuid FROM entries e
+        WHERE e.job_id = job_heads.job_id AND e.action = 'detail' AND e.item_id = 'job.site'
+        ORDER BY e.at DESC, e.uuid DESC LIMIT 1)
+        WHERE EXISTS (SELECT 1 FROM entries e WHERE e.job_id = job_heads.job_id
+                      AND e.action = 'detail' AND e.item_id = 'job.site');
+    UPDATE job_heads SET (installer, installer_key) = (
+        SELECT json_extract(e.value_json, '$'), e.at || ' ' || e.uuid FROM entries e
+        WHERE e.job_id = job_heads.job_id AND e.action = 'detail'
+        AND e.item_id = 'job.installer' ORDER BY e.at DESC, e.uuid DESC LIMIT 1)
+        WHERE EXISTS (SELECT 1 FROM entries e WHERE e.job_id = job_heads.job_id
+                      AND e.action = 'detail' AND e.item_id = 'job.installer');
+    UPDATE job_heads SET (next_inspection, next_inspection_key) = (
+        SELECT json_extract(e.value_json, '$'), e.at || ' ' || e.uuid FROM entries e
+        WHERE e.job_id = job_heads.job_id AND e.action = 'detail'
+        AND e.item_id = 'job.next_inspection' ORDER BY e.at DESC, e.uuid DESC LIMIT 1)
+        WHERE EXISTS (SELECT 1 FROM entries e WHERE e.job_id = job_heads.job_id
+                      AND e.action = 'detail' AND e.item_id = 'job.next_inspection');
+    CREATE INDEX job_heads_installer ON job_heads (installer);
+    CREATE INDEX job_heads_next_inspection ON job_heads (next_inspection);
+    CREATE TRIGGER job_heads_new_job AFTER INSERT ON jobs BEGIN
+        INSERT INTO job_heads (job_id, site, installer, next_inspection)
+        VALUES (NEW.id, NEW.site, NEW.installer, NEW.next_inspection);
+    END;
+    CREATE TRIGGER job_heads_new_entry AFTER INSERT ON entries BEGIN
+        UPDATE job_heads SET last_entry = NEW.at || ' ' || NEW.uuid
+            WHERE job_id = NEW.job_id AND NEW.action != 'detail'
+            AND last_entry < NEW.at || ' ' || NEW.uuid;
+        UPDATE job_heads SET site = json_extract(NEW.value_json, '$'),
+            site_key = NEW.at || ' ' || NEW.uuid
+            WHERE job_id = NEW.job_id AND NEW.action = 'detail' AND NEW.item_id = 'job.site'
+            AND site_key < NEW.at || ' ' || NEW.uuid;
+        UPDATE job_heads SET installer = json_extract(NEW.value_json, '$'),
+            installer_key = NEW.at || ' ' || NEW.uuid
+            WHERE job_id = NEW.job_id AND NEW.action = 'detail'
+            AND NEW.item_id = 'job.installer' AND installer_key < NEW.at || ' ' || NEW.uuid;
+        UPDATE job_heads SET next_inspection = json_extract(NEW.value_json, '$'),
+            next_inspection_key = NEW.at || ' ' || NEW.uuid
+            WHERE job_id = NEW.job_id AND NEW.action = 'detail'
+            AND NEW.item_id = 'job.next_inspection'
+            AND next_inspection_key < NEW.at || ' ' || NEW.uuid;
+    END;
+    CREATE TABLE job_status (
+        job_id INTEGER PRIMARY KEY REFERENCES jobs(id),
+        last_entry TEXT NOT NULL,
+        checklist_sha256 TEXT NOT NULL,
+        check_logic INTEGER NOT NULL,
+        status TEXT NOT NULL,
+        derived_at TEXT NOT NULL
+    );
+    CREATE INDEX job_status_status ON job_status (status);
     """,
 }

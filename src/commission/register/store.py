@@ -626,6 +626,52 @@ class Register:
             self._device = row[0]
         return self._device
 
+
+    def list_jobs(self, *, status: str | None = None, installer: str | None = None,
+                  due: str | None = None, page: int = 1, size: int = 100
+                  ) -> tuple[list[tuple[Job, str | None, bool]], int]:
+        """One page of jobs (oldest first) with the cached status and whether it is
+        current (see ``status_cache``); filters run in the database. ``due``: a next
+        inspection on or before this ISO date. ``size`` 0: every job."""
+        from ..status_cache import check_logic_version
+
+        where, args = ["1 = 1"], []
+        if status:
+            where.append("s.status = ?")
+            args.append(status)
+        if installer:
+            where.append("h.installer = ?")
+            args.append(installer)
+        if due:
+            where.append("h.next_inspection != '' AND h.next_inspection <= ?")
+            args.append(due)
+        base = (" FROM jobs j JOIN job_heads h ON h.job_id = j.id LEFT JOIN job_status s"
+                " ON s.job_id = j.id WHERE " + " AND ".join(where))
+        total = self.db.execute("SELECT count(*)" + base, args).fetchone()[0]
+        limit = f" LIMIT {int(size)} OFFSET {int(size) * (max(page, 1) - 1)}" if size else ""
+        rows = self.db.execute(
+            "SELECT j.id, s.status, s.last_entry = h.last_entry AND s.checklist_sha256 ="
+            " j.checklist_sha256 AND s.check_logic = ?" + base + " ORDER BY j.id" + limit,
+            [check_logic_version(), *args]).fetchall()
+        return [(self.job(r[0]), r[1], bool(r[2])) for r in rows], total
+
+    def remember_status(self, job: Job, last_entry: str, status: str) -> None:
+        """Cache a status derived from the entries up to ``last_entry`` (a cache: a
+        register this user cannot write simply keeps the old one)."""
+        from ..status_cache import check_logic_version
+
+        if self.read_only:
+            return
+        with contextlib.suppress(RegisterError), self._transaction():
+            self._write(
+                "INSERT INTO job_status (job_id, last_entry, checklist_sha256, check_logic,"
+                " status, derived_at) VALUES (?,?,?,?,?,?) ON CONFLICT(job_id) DO UPDATE SET"
+                " last_entry = excluded.last_entry, checklist_sha256 ="
+                " excluded.checklist_sha256, check_logic = excluded.check_logic,"
+                " status = excluded.status, derived_at = excluded.derived_at",
+                (job.id, last_entry, job.checklist_sha256, check_logic_version(), status,
+                 now_iso()))
+
     # -- sync (see register/sync.py) ------------------------------------------
     def who(self) -> str:
         return who()
