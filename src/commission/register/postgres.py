@@ -233,13 +233,16 @@ class PostgresRegister:
         row = self._x(f"SELECT {_JOB_COLS} FROM jobs WHERE id = %s", (job_id,)).fetchone()
         return self._job(row)
 
-    def _job(self, row: tuple) -> Job:
+    def _job(self, row: tuple, amended: list[tuple[str, str]] | None = None) -> Job:
         names = [c.strip() for c in _JOB_COLS.split(",")]
         r = dict(zip(names, row, strict=True))
         details = {k: r[k] for k in DETAIL_FIELDS}
         original = dict(details)
-        for e in self._entries(r["id"], "AND action = 'detail'"):
-            details[e.item_id.removeprefix("job.")] = e.value
+        if amended is None:
+            amended = [(e.item_id, json.dumps(e.value))
+                       for e in self._entries(r["id"], "AND action = 'detail'")]
+        for item, value in amended:
+            details[item.removeprefix("job.")] = json.loads(value) if value else None
         return Job(r["id"], r["short_id"], r["uuid"], r["created_at"], r["created_by"], details,
                    r["checklist_id"], r["checklist_version"], r["checklist_sha256"],
                    r["checklist_text"], r["checklist_source"], original,
@@ -449,7 +452,20 @@ class PostgresRegister:
             "SELECT j.id, s.status, coalesce(s.last_entry = h.last_entry AND"
             " s.checklist_sha256 = j.checklist_sha256 AND s.check_logic = %s, false)"
             + base + " ORDER BY j.id" + limit, [check_logic_version(), *args]).fetchall()
-        return [(self.job(r[0]), r[1], bool(r[2])) for r in rows], total
+        jobs = self._jobs_by_ids([r[0] for r in rows])
+        return [(jobs[r[0]], r[1], bool(r[2])) for r in rows], total
+
+    def _jobs_by_ids(self, ids: list[int]) -> dict[int, Job]:
+        """Jobs with their amended details in two queries (a page of `jobs`)."""
+        details: dict[int, list[tuple[str, str]]] = {}
+        for job_id, item, value in self._x(
+                "SELECT job_id, item_id, value_json FROM entries WHERE job_id = ANY(%s)"
+                " AND action = 'detail' ORDER BY at, uuid", (ids,)):
+            details.setdefault(job_id, []).append((item, value))
+        out = {}
+        for row in self._x(f"SELECT {_JOB_COLS} FROM jobs WHERE id = ANY(%s)", (ids,)):
+            out[row[0]] = self._job(row, details.get(row[0], []))
+        return out
 
     def remember_status(self, job: Job, last_entry: str, status: str) -> None:
         from ..status_cache import check_logic_version
