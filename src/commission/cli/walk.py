@@ -73,7 +73,9 @@ def walk(
     with open_register(register, create=False) as reg:
         target = reg.find_job(job)
         inst = reg.instrument_by_serial(instrument) if instrument else None
-        with reg.walk_lock(target, take_over=take_over):
+        with reg.walk_lock(target, take_over=take_over) as held:
+            if getattr(held, "note", ""):
+                typer.echo(f"warning: {held.note}", err=True)
             if inst is not None:
                 # Kept with the job: a walk resumed after Ctrl-C stamps the same instrument.
                 reg.set_instrument_in_use(target, inst)

@@ -53,7 +53,7 @@ def _password_in(url: str) -> bool:
 class PostgresRegister:
     """A register on a PostgreSQL server, reached by a ``postgresql://`` URL."""
 
-    def __init__(self, url: str, create: bool = True):
+    def __init__(self, url: str, create: bool = True, connect_timeout: int | None = None):
         from . import redact
 
         if _password_in(url):
@@ -61,6 +61,7 @@ class PostgresRegister:
                             "(it would stay in shell history and process lists); put it in "
                             "PGPASSFILE (~/.pgpass) or a service file")
         self.url = url
+        self.connect_timeout = connect_timeout
         self.location = redact(url)
         self.create = create
         self.read_only = False
@@ -81,8 +82,10 @@ class PostgresRegister:
         import psycopg
 
         try:
+            extra = ({"connect_timeout": self.connect_timeout} if self.connect_timeout
+                     else {})
             self._conn = psycopg.connect(self.url, autocommit=True,
-                                         application_name="commission")
+                                         application_name="commission", **extra)
         except psycopg.Error as exc:
             why = " ".join(str(exc).split())[:200]
             raise RegisterError(f"{self.location}: cannot connect ({why})") from None

@@ -286,7 +286,13 @@ class Register:
         process dies."""
         from .lock import JobLock
 
-        return JobLock(self.path, job.uuid, job.short_id)
+        local = JobLock(self.path, job.uuid, job.short_id)
+        url = self.setting("company_register") if not self.read_only else None
+        if not url:
+            return local
+        from .lease import LaptopWalk
+
+        return LaptopWalk(local, self, job, url, take_over=take_over)
 
     @property
     def db(self) -> sqlite3.Connection:
