@@ -158,6 +158,9 @@ class PostgresRegister:
         try:
             with self.conn.transaction():
                 yield
+        except psycopg.errors.InsufficientPrivilege as exc:
+            raise RegisterError(f"{self.location}: not allowed for this database role "
+                                f"({_first_line(exc)}); nothing was changed") from None
         except psycopg.OperationalError as exc:
             raise RegisterError(f"{self.location}: the connection failed "
                                 f"({_first_line(exc)}); nothing unconfirmed was kept") from None
