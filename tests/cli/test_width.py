@@ -94,6 +94,9 @@ def commands(world) -> list[tuple[str, list[str]]]:
         ("report", ["report", job, "--out", str(base / "again.pdf")]),
         ("report", ["report", job, "--out", str(record)]),  # refused: exists
         ("verify", ["verify", str(record)]),
+        # no timestamp authority listens on port 9 of this machine: the one-line refusal
+        ("seal", ["seal", str(record), "--tsa", "http://127.0.0.1:9/",
+                  "--out", str(base / "sealed.pdf")]),
         ("verify", ["verify", str(record), "--trust", str(demo / "identity" / "cert.pem")]),
         ("import", ["import", str(record), "--register", str(base / "imported.sqlite3")]),
         ("blank", ["blank", "diverter-1ph", "--out", str(base / "blank.pdf")]),

@@ -367,13 +367,13 @@ def test_backdated_into_an_expired_certificate(cli, demo, reviewer, tmp_path, mo
     refused_everywhere(cli, attack, "before the record was made", tmp_path)
     # not backdated, the expired certificate is named as such
     plain = build_record(demo, tmp_path / "expired.pdf", expired, declared=expired,
-                         claimed=NOW, monkeypatch=monkeypatch)
+                         claimed=dt.datetime.now(dt.UTC), monkeypatch=monkeypatch)
     refused_everywhere(cli, plain, "its certificate had expired at the claimed signing time",
                        tmp_path)
     valid = make_cert(tmp_path / "pki", "Ines Marchetti", "REG-55120")
     trust(cli, valid)
     control = build_record(demo, tmp_path / "control.pdf", valid, declared=valid,
-                           claimed=NOW, monkeypatch=monkeypatch)
+                           claimed=dt.datetime.now(dt.UTC), monkeypatch=monkeypatch)
     verifies(cli, control)
 
 
