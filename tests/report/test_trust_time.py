@@ -19,7 +19,6 @@ token against the TSA's root; poppler's ``pdfsig`` checks the approval signature
 from __future__ import annotations
 
 import datetime as dt
-import os
 import re
 import subprocess
 import threading
@@ -156,24 +155,6 @@ def tsa(tmp_path_factory):
 
 
 # --------------------------------------------------------------------------- records
-
-@pytest.fixture(scope="module")
-def demo(tmp_path_factory):
-    from typer.testing import CliRunner
-
-    from commission.cli.app import app
-
-    folder = tmp_path_factory.mktemp("demo")
-    old = os.environ.get("COMMISSION_HOME")
-    result = CliRunner().invoke(app, ["demo", "--out", str(folder)])
-    if old is None:
-        os.environ.pop("COMMISSION_HOME", None)
-    else:
-        os.environ["COMMISSION_HOME"] = old
-    assert result.exit_code == 0, result.output
-    job = re.search(r"demo job (\w+)", result.stdout).group(1)
-    return {"folder": folder, "job": job, "register": folder / "register.sqlite3"}
-
 
 class Clock:
     """The attacker's signing tool: any claimed time (/M), any certificate."""
