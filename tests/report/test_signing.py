@@ -567,7 +567,7 @@ def test_unsigned_update_after_signing_is_content_changed(signed_file):
     writer.write(out)
     report = check_signatures(out.getvalue())
     assert not report.intact and not report.signatures[0].covers_whole
-    assert any(p.startswith("content changed after signing") for p in report.problems)
+    assert any(p.startswith("modified after signing") for p in report.problems)
 
 
 def test_resigned_by_another_key_with_the_same_name_is_untrusted(cli, tmp_path, monkeypatch):
@@ -608,7 +608,7 @@ def test_content_changed_in_a_later_signed_revision(cli, tmp_path, monkeypatch):
     first, second = report.signatures
     assert first.valid and first.trusted and not first.covers_whole
     assert second.valid and second.covers_whole
-    assert any(p.startswith("content changed after signing") for p in report.problems)
+    assert any(p.startswith("modified after signing") for p in report.problems)
     assert not report.intact and not report.ok()
 
 

@@ -203,15 +203,14 @@ def verify(
 
 
 def _verification(file: Path, trust: list[Path] | None, checklist: Path | None = None,
-                  strict: bool = False):
+                  strict: bool = False, read_anyway: bool = False):
     from ..errors import UserError
     from ..report.identity import load_certificate_bytes
     from ..report.verify import verify as run
 
-    try:
-        data = file.read_bytes()
-    except OSError as exc:
-        raise UserError(f"{file}: cannot read ({exc.strerror})") from None
+    if not file.is_file():
+        raise UserError(f"{file}: no such file" if not file.exists() else
+                        f"{file}: is not a file")
     certs = []
     for path in trust or []:
         try:
@@ -224,7 +223,8 @@ def _verification(file: Path, trust: list[Path] | None, checklist: Path | None =
         from ..checks import CHECKS
 
         named = load(checklist, checks=CHECKS, strict=False)
-    return run(data, certs, checklist=named, strict=strict)
+    # the file is read in place (never whole): see report/source.py
+    return run(file, certs, checklist=named, strict=strict, read_anyway=read_anyway)
 
 
 def import_(
@@ -243,7 +243,7 @@ def import_(
     from ..record import safe
     from ..report.restore import restore
 
-    result = _verification(file, trust)
+    result = _verification(file, trust, read_anyway=unverified)
     if not result.ok() and not unverified:
         typer.echo(f"not imported: {file.name}: {safe(result.first_problem())} (nothing "
                    "written; --unverified imports it marked unverified)", err=True)
@@ -258,9 +258,17 @@ def import_(
         raise UserError(f"{file}: {content.problem}; not imported")
     record = content.record
     from ..report.signatures import open_pdf
+    from ..report.source import opened
     from ..report.verify import attachments
 
-    files = attachments(open_pdf(file.read_bytes())[0])
+    with opened(file) as stream:
+        attached = attachments(open_pdf(stream)[0])
+        files = {}
+        for meta in record.files:
+            try:
+                files[meta.sha256] = attached[meta.sha256]
+            except KeyError:
+                continue
     state = "verified" if result.ok() else "unverified"
     short, restored = restore(register, record, files, imported=state)
     if state == "unverified":

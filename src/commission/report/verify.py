@@ -8,10 +8,12 @@ compared with the snapshot the record carries (whose hash the pages print).
 
 from __future__ import annotations
 
+from collections.abc import Iterator, Mapping
 from dataclasses import dataclass, field
 from typing import Any
 
 from .. import record as rec
+from ..errors import UserError
 
 
 @dataclass
@@ -32,6 +34,7 @@ class Verification:
     record: dict[str, Any] | None = None
     content: rec.ContentResult | None = None
     content_ok: bool = False
+    pages_match: bool = False
     notices: list[str] = field(default_factory=list)
     timestamps: list[dict[str, Any]] = field(default_factory=list)
 
@@ -48,7 +51,8 @@ class Verification:
     def ok(self) -> bool:
         """Every signature valid and trusted, the file intact, the record as signed."""
         return (self.signed and self.signature_valid and self.intact and self.record_embedded
-                and self.record_hash_match and self.content_ok and self.trusted
+                and self.record_hash_match and self.content_ok and self.pages_match
+                and self.trusted
                 and not self.problems)
 
     def first_problem(self) -> str | None:
@@ -63,36 +67,100 @@ class Verification:
         return "verification failed"
 
 
-def attachments(reader) -> dict[str, bytes]:
-    """Embedded files by name, read from the document's EmbeddedFiles name tree."""
-    out: dict[str, bytes] = {}
+class NotARecord(UserError):
+    """A PDF that is no commission record at all (the CLI exits 2)."""
+
+
+MAX_NAMES = 10_000  # entries of the embedded-files name tree that are looked at
+MAX_TREE_DEPTH = 32
+
+
+def _embedded_specs(root) -> dict[str, Any]:
+    """File specifications by name from a catalogue's EmbeddedFiles name tree; only the
+    small dictionaries are read, never a file's data."""
+    out: dict[str, Any] = {}
     try:
-        names = reader.root["/Names"]["/EmbeddedFiles"]
+        names = root["/Names"]["/EmbeddedFiles"]
     except Exception:  # noqa: BLE001 — a damaged name tree means "no attachments"
         return out
-    stack = [names]
-    while stack:
-        node = stack.pop()
-        node = node.get_object() if hasattr(node, "get_object") else node
-        if "/Kids" in node:
-            kids = node["/Kids"]
-            stack.extend(kids.get_object() if hasattr(kids, "get_object") else kids)
-        pairs = node.get("/Names", [])
-        pairs = pairs.get_object() if hasattr(pairs, "get_object") else pairs
-        for n in range(0, len(pairs) - 1, 2):
+    stack = [(names, 0)]
+    seen: set[int] = set()
+    while stack and len(out) < MAX_NAMES:
+        node, depth = stack.pop()
+        try:
+            node = node.get_object() if hasattr(node, "get_object") else node
+        except Exception:  # noqa: BLE001
+            continue
+        if id(node) in seen or depth > MAX_TREE_DEPTH:
+            continue
+        seen.add(id(node))
+        try:
+            if "/Kids" in node:
+                kids = node["/Kids"]
+                kids = kids.get_object() if hasattr(kids, "get_object") else kids
+                stack.extend((k, depth + 1) for k in list(kids)[:MAX_NAMES])
+            pairs = node.get("/Names", [])
+            pairs = pairs.get_object() if hasattr(pairs, "get_object") else pairs
+        except Exception:  # noqa: BLE001
+            continue
+        for n in range(0, min(len(pairs), 2 * MAX_NAMES) - 1, 2):
             try:
-                name = str(pairs[n])
-                spec = pairs[n + 1].get_object()
-                out[name] = spec["/EF"]["/F"].get_object().data
-            except Exception:  # noqa: BLE001 — a damaged attachment is skipped, not fatal
+                out[str(pairs[n])] = pairs[n + 1]
+            except Exception:  # noqa: BLE001 — a damaged entry is skipped, not fatal
                 continue
     return out
 
 
+class Attachments(Mapping[str, bytes]):
+    """The embedded files of a PDF by name, read when asked and decoded with a bound
+    (at most ``limit + 1`` bytes of each: enough to see that one is too large)."""
+
+    def __init__(self, reader, limit: int = rec.ATTACH_LIMIT):
+        self._specs = _embedded_specs(reader.root)
+        self._limit = limit
+        self._cache: dict[str, bytes] = {}
+
+    def __iter__(self) -> Iterator[str]:
+        return iter(self._specs)
+
+    def __len__(self) -> int:
+        return len(self._specs)
+
+    def __contains__(self, name: object) -> bool:
+        return name in self._specs
+
+    def read(self, name: str, limit: int | None = None) -> bytes:
+        from .source import read_stream_bounded
+
+        if name in self._cache:
+            return self._cache[name]
+        try:
+            spec = self._specs[name].get_object()
+            data = read_stream_bounded(spec["/EF"]["/F"].get_object(), limit or self._limit)
+        except KeyError:
+            raise
+        except Exception:  # noqa: BLE001 — a damaged attachment reads as missing
+            raise KeyError(name) from None
+        self._cache[name] = data
+        return data
+
+    def __getitem__(self, name: str) -> bytes:
+        return self.read(name)
+
+
+def attachments(reader) -> Attachments:
+    """Embedded files by name, read from the document's EmbeddedFiles name tree."""
+    return Attachments(reader)
+
+
 def declared_hash(reader) -> str | None:
     """The record hash the document declares (the one its page footers print)."""
+    return _declared(reader.trailer)
+
+
+def _declared(trailer) -> str | None:
     try:
-        info = reader.trailer["/Info"].get_object()
+        info = trailer["/Info"].get_object()
         keywords = str(info.get("/Keywords", ""))
     except Exception:  # noqa: BLE001 — damaged document info: no declared hash
         return None
@@ -102,12 +170,50 @@ def declared_hash(reader) -> str | None:
     return None
 
 
-def verify(pdf_bytes: bytes, extra_trust: list[Any] | None = None, checklist=None,
-           strict: bool = False) -> Verification:
-    from .signatures import check_signatures, open_pdf
+def _is_record(reader) -> bool:
+    """Whether any revision of the file holds the record attachment or the commission
+    metadata (so a record whose attachment was later removed is still a record)."""
+    if rec.RECORD_NAME in _embedded_specs(reader.root) or _declared(reader.trailer):
+        return True
+    try:
+        total = reader.xrefs.total_revisions
+    except Exception:  # noqa: BLE001
+        return False
+    for rev in range(max(0, total - 64), total - 1):
+        try:
+            hist = reader.get_historical_resolver(rev)
+            if rec.RECORD_NAME in _embedded_specs(hist.root) or \
+                    _declared(hist.trailer_view):
+                return True
+        except Exception:  # noqa: BLE001 — an unreadable old revision says nothing
+            continue
+    return False
 
-    reader, _ = open_pdf(pdf_bytes)  # NotAPdf (exit 2) when it is not a PDF at all
-    report = check_signatures(pdf_bytes, extra_trust=extra_trust or [])
+
+def verify(source, extra_trust: list[Any] | None = None, checklist=None,
+           strict: bool = False, *, read_anyway: bool = False) -> Verification:
+    """Verify a record given as bytes, a path or a seekable binary file object.
+
+    Order: the file must be a PDF (else :class:`NotAPdf`, exit 2) and a commission
+    record (else :class:`NotARecord`, exit 2); then the signatures and the file's
+    integrity; only when those hold is anything in the record read (``read_anyway``
+    reads it regardless, for ``import --unverified``). Then the record's hash against
+    the one the document declares, its content, and the pages against it.
+    """
+    from .source import opened
+
+    with opened(source) as stream:
+        return _verify(stream, extra_trust, checklist, strict, read_anyway)
+
+
+def _verify(stream, extra_trust, checklist, strict: bool, read_anyway: bool) -> Verification:
+    from .signatures import check_reader, read_pdf
+
+    reader, structure_problem, extended = read_pdf(stream)  # NotAPdf (exit 2)
+    if not _is_record(reader):
+        raise NotARecord(f"not a commission record: the PDF holds no embedded record "
+                         f"({rec.RECORD_NAME}) and no commission metadata")
+    report = check_reader(reader, structure_problem, extended, extra_trust=extra_trust or [])
     v = Verification(
         signed=report.signed,
         signatures=[{"signer": s.signer, "fingerprint": s.fingerprint, "valid": s.valid,
@@ -121,10 +227,18 @@ def verify(pdf_bytes: bytes, extra_trust: list[Any] | None = None, checklist=Non
         v.problems.insert(0, "the PDF carries no signature")
     elif not report.trusted and report.trust_note:
         v.problems.append(report.trust_note)  # every signature must be trusted
-    files = attachments(reader)
-    payload = files.get(rec.RECORD_NAME)
-    if payload is None:
-        v.problems.append(f"no embedded record ({rec.RECORD_NAME}) in the PDF")
+    if v.problems and not read_anyway:
+        return v  # signatures first: nothing in a file that fails them is read
+    files = Attachments(reader)
+    if rec.RECORD_NAME not in files:
+        v.problems.append(f"no embedded record ({rec.RECORD_NAME}) in the PDF: removed")
+        return v
+    from ..record.strictjson import MAX_RECORD_BYTES
+
+    try:
+        payload = files.read(rec.RECORD_NAME, MAX_RECORD_BYTES)
+    except KeyError:
+        v.problems.append(f"the embedded record ({rec.RECORD_NAME}) cannot be read")
         return v
     v.record_embedded = True
     digest = rec.record_hash(payload)
@@ -133,6 +247,8 @@ def verify(pdf_bytes: bytes, extra_trust: list[Any] | None = None, checklist=Non
     if not v.record_hash_match:
         v.problems.append(f"the embedded record's SHA-256 {digest[:16]}… does not match the "
                           f"printed {str(declared)[:16]}…")
+        if not read_anyway:
+            return v
     # The content is verified through the record package (schema, checklist, raw text,
     # files, re-evaluation); signatures and integrity are checked above.
     content = rec.verify_content(payload, files, checklist_override=checklist, strict=strict)
@@ -149,6 +265,16 @@ def verify(pdf_bytes: bytes, extra_trust: list[Any] | None = None, checklist=Non
         _installer_and_times(v, report, content.record)
     if content.problem:
         v.problems.append(content.problem)
+    if content.ok and not v.problems and content.record is not None:
+        # the pages last: they are read only once everything they are compared with holds
+        from .pages import PageMismatch, check_pages
+
+        try:
+            check_pages(stream, content.record, digest, content.results or [],
+                        answers=not isinstance(content.record, rec.RecordV1))
+            v.pages_match = True
+        except PageMismatch as exc:
+            v.problems.append(f"the pages do not say what the record says: {exc}")
     return v
 
 
