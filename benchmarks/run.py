@@ -27,7 +27,7 @@ if __package__ in (None, ""):  # run as a script: make ``benchmarks`` importable
 
 from benchmarks._common import Context, Figure, markdown_table, text_table  # noqa: E402
 
-BENCHMARKS = ("help", "capture", "wav", "report", "walk", "register")
+BENCHMARKS = ("help", "capture", "wav", "report", "walk", "register", "verify")
 
 
 def main(argv: list[str] | None = None) -> int:
