@@ -44,7 +44,8 @@ class Forge:
         monkeypatch.setenv("COMMISSION_HOME", str(demo["folder"]))
         self.demo, self.tmp = demo, tmp_path
 
-    def pdf(self, change=None, payload_change=None, name="attacked.pdf") -> Path:
+    def pdf(self, change=None, payload_change=None, name="attacked.pdf",
+            results_change=None) -> Path:
         from commission import record as rec
         from commission.register import Register
         from commission.report import build, pdf
@@ -68,6 +69,8 @@ class Forge:
             if payload_change is not None:
                 payload = payload_change(payload)
             sha = rec.record_hash(payload)
+            if results_change is not None:  # the pages as that record's maker drew them
+                results = results_change(results)
             doc = pdf.render(state, results, sha, pdf.load_form(resolve("forms", "handover")),
                              GENERATED)
             doc = build.embed_files(doc, payload, attachments, state)
@@ -398,7 +401,13 @@ def test_other_check_logic_version_is_a_notice_and_strict_fails(cli, forge, tmp_
 
     from commission.checks.registry import CHECK_LOGIC_VERSION as NOW
 
-    path = forge.pdf(change)
+    def drawn(results):
+        import dataclasses
+
+        return [dataclasses.replace(r, verdict="review") if r.item.id == "install.inverter"
+                else r for r in results]
+
+    path = forge.pdf(change, results_change=drawn)
     result = cli("verify", path)
     assert result.exit_code == 0, result.output
     assert ("notice: judged differently by this version: install.inverter: recorded review "

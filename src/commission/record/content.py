@@ -75,6 +75,7 @@ class ContentResult:
     check_logic: tuple[int | None, int] = (None, 0)
     program_version: str | None = None
     unverified_import: bool = False
+    results: list[Any] | None = None  # the re-evaluated results (for the page checks)
     # where the first failure was found: read (bytes, schema), checklist, entries, files,
     # verdicts; a record that fails at read or entries cannot even be imported unverified
     failed_at: str | None = None
@@ -91,7 +92,7 @@ class ContentResult:
 
     def as_json(self) -> dict[str, Any]:
         out = {k: v for k, v in self.__dict__.items()
-               if k not in ("record", "data", "_stage")}
+               if k not in ("record", "data", "_stage", "results")}
         out["checklist"] = self.checklist.as_json()
         out["check_logic"] = {"recorded": self.check_logic[0], "now": self.check_logic[1]}
         return out
@@ -430,6 +431,7 @@ def _reevaluate(record: AnyRecord, checklist, files: FilesFromPdf,
         raise ContentFailure(f"the record cannot be re-evaluated: {exc}") from None
     finally:
         files.close()
+    result.results = results
     now = {v["id"]: v for v in verdict_snapshot(results)}
     # the verdicts as written (schema-checked already), compared key by key
     recorded = {v["id"]: v for v in (result.data or {}).get("verdicts", [])}
