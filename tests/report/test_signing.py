@@ -48,6 +48,22 @@ def make_pdf(text: str = "Diverter handover: RCD trip 23 ms, pass") -> bytes:
     return buf.getvalue()
 
 
+def record_pdf(cli, path: Path, sign: bool = True) -> Path:
+    """A small record of tests/data/mini.yaml (3 answers), signed by the current identity
+    with `report --sign`: countersign verifies the whole record first, so it needs one."""
+    made = cli("new", "--checklist", Path(__file__).parent.parent / "data" / "mini.yaml",
+               "--site", "Mini")
+    assert made.exit_code == 0, made.output
+    job = made.stdout.strip().splitlines()[-1]
+    answers = path.with_suffix(".answers.yaml")
+    answers.write_text("a.earthing: TN-S\na.voltage: 231 V\na.note: fine\n", encoding="utf-8")
+    assert cli("walk", job, "--answers", answers).exit_code == 0
+    args = ["report", job, "--out", path] + (["--sign"] if sign else [])
+    result = cli(*args)
+    assert result.exit_code == 0, result.output
+    return path
+
+
 def use_home(monkeypatch, path: Path) -> Path:
     monkeypatch.setenv("COMMISSION_HOME", str(path))
     return path
@@ -659,8 +675,7 @@ def test_wrong_passphrase_is_a_one_line_user_error(cli, tmp_path, monkeypatch):
     new_identity(cli)
     with pytest.raises(UserError, match="^wrong passphrase"):
         sign_pdf(make_pdf(), passphrase="nope", reason="r", location=None, field_name="F")
-    signed = tmp_path / "s.pdf"
-    signed.write_bytes(sign(make_pdf()))
+    signed = record_pdf(cli, tmp_path / "s.pdf")
     monkeypatch.setenv("COMMISSION_PASSPHRASE", "nope")
     result = cli("countersign", signed, "--out", tmp_path / "c.pdf")
     assert result.exit_code == 2
@@ -689,8 +704,7 @@ def test_countersigned_file_keeps_both_signatures_valid(cli, tmp_path, monkeypat
     use_home(monkeypatch, tmp_path / "installer")
     new_identity(cli, "Zoë Łukasiewicz-Núñez", "REG-1")
     installer_cert = export_cert(cli, tmp_path / "zoe.pem")
-    first = tmp_path / "record.pdf"
-    first.write_bytes(sign(make_pdf()))
+    first = record_pdf(cli, tmp_path / "record.pdf")
 
     use_home(monkeypatch, tmp_path / "reviewer")
     new_identity(cli, "Дмитрий Кузнецов", "EL-99")
@@ -738,31 +752,43 @@ def test_countersigned_file_keeps_both_signatures_valid(cli, tmp_path, monkeypat
     # a second countersignature gets a field of its own
     assert cli("countersign", second, "--out", third).exit_code == 0
     fields = [s.field for s in check_signatures(third.read_bytes()).signatures]
-    assert fields == ["Installer", "Reviewer", "Reviewer-2"]
+    assert fields == ["InstallerSignature", "Reviewer", "Reviewer-2"]
 
 
-def test_countersign_refuses_when_the_installer_is_not_trusted(cli, tmp_path, monkeypatch):
+def test_untrusted_installer_needs_the_fingerprint_typed(cli, tmp_path, monkeypatch):
+    """An installer missing from the reviewer's trust store: refused, unless the reviewer
+    types the installer's certificate SHA-256 (the one `identity show` prints)."""
     use_home(monkeypatch, tmp_path / "installer")
     new_identity(cli)
-    first = tmp_path / "record.pdf"
-    first.write_bytes(sign(make_pdf()))
+    fingerprint = json.loads(cli("identity", "show", "--json").stdout)["fingerprint"]
+    first = record_pdf(cli, tmp_path / "record.pdf")
     use_home(monkeypatch, tmp_path / "reviewer")
     new_identity(cli, "Σοφία Παπαδοπούλου", "GR-5")
-    result = cli("countersign", first, "--out", tmp_path / "c.pdf")
-    assert result.exit_code == 2 and not (tmp_path / "c.pdf").exists()
-    assert "refusing to countersign" in result.stderr and \
-        "not in your trust store" in result.stderr and result.stderr.count("\n") == 1
+    out = tmp_path / "c.pdf"
+    refused = cli("countersign", first, "--out", out)
+    assert refused.exit_code == 2 and "--installer-fingerprint" in refused.stderr
+    assert refused.stderr.count("\n") == 1 and not out.exists()
+    wrong = "0" * 64
+    refused = cli("countersign", first, "--out", out, "--installer-fingerprint", wrong)
+    assert refused.exit_code == 2 and "not the fingerprint you typed" in refused.stderr
+    assert not out.exists()
+    spaced = " ".join(fingerprint[k:k + 4] for k in range(0, 64, 4)).upper()
+    result = cli("countersign", first, "--out", out, "--installer-fingerprint", spaced)
+    assert result.exit_code == 0, result.output
+    assert "confirmed by the fingerprint you typed" in result.stdout and out.exists()
 
 
 def test_countersign_refuses_unsigned_tampered_and_non_pdf(cli, tmp_path):
     new_identity(cli)
-    unsigned = tmp_path / "unsigned.pdf"
-    unsigned.write_bytes(make_pdf())
+    unsigned = record_pdf(cli, tmp_path / "unsigned.pdf", sign=False)
     tampered = tmp_path / "tampered.pdf"
-    tampered.write_bytes(sign(make_pdf()) + b"% later\n")
+    tampered.write_bytes(record_pdf(cli, tmp_path / "r.pdf").read_bytes() + b"% later\n")
+    plain = tmp_path / "plain.pdf"
+    plain.write_bytes(sign(make_pdf()))
     junk = tmp_path / "junk.pdf"
     junk.write_text("not a pdf")
     for src, words in ((unsigned, "nothing to countersign"), (tampered, "refusing"),
+                       (plain, "not a commission record"),
                        (junk, "not a PDF"), (tmp_path / "missing.pdf", "no such file")):
         result = cli("countersign", src, "--out", tmp_path / "out.pdf")
         assert result.exit_code == 2, src

@@ -251,8 +251,13 @@ def countersign(
     reason: Annotated[str, typer.Option("--reason", help="Why you sign.")] =
     "reviewed and accepted",
     location: Annotated[str | None, typer.Option("--location", help="Where you sign.")] = None,
+    installer_fingerprint: Annotated[str | None, typer.Option(
+        "--installer-fingerprint", metavar="HEX",
+        help="The installer's certificate SHA-256 as they read it out to you: accepts an "
+             "installer not in your trust store, for this countersignature only.")] = None,
 ) -> None:
-    """Add your signature to a signed record in a new revision; earlier ones stay valid."""
+    """Verify a signed record fully, then add your signature (and your stamp in the box the
+    record reserves) in a new revision; earlier signatures stay valid."""
     import os
 
     from ..errors import UserError
@@ -267,7 +272,8 @@ def countersign(
         raise UserError(f"{file}: cannot read ({exc.strerror})") from None
     me = load_identity()
     signed, before = add_signature(data, passphrase=ask_passphrase(passphrase_file),
-                                   reason=reason, location=location, identity=me)
+                                   reason=reason, location=location, identity=me,
+                                   installer_fingerprint=installer_fingerprint)
     out = Path(out)
     tmp = out.with_name(f".{out.name}.{os.getpid()}.tmp")
     try:
@@ -281,7 +287,7 @@ def countersign(
         raise UserError(f"{out}: cannot write ({exc.strerror})") from None
     first = before.signatures[0]
     typer.echo(f"countersigned by {me.name}: {out}")
+    how = "trusted" if before.trusted else (
+        "confirmed by the fingerprint you typed" if installer_fingerprint else "NOT trusted")
     typer.echo(f"earlier signatures: {len(before.signatures)}, first by {first.signer} "
-               f"({'trusted' if before.trusted else 'NOT trusted'} here)")
-    if not before.trusted and before.trust_note:
-        typer.echo(f"note: {before.trust_note}", err=True)
+               f"({how} here)")

@@ -55,7 +55,7 @@ def signature_fields(pdf_bytes: bytes) -> dict[str, bool]:
 
 
 def sign_pdf(pdf_bytes: bytes, *, passphrase: str, reason: str, location: str | None,
-             field_name: str, identity: Identity | None = None) -> bytes:
+             field_name: str, identity: Identity | None = None, stamp=None) -> bytes:
     """``pdf_bytes`` with one more signature, by the stored identity, in a new revision.
 
     ``field_name`` names the (invisible) signature field; an existing empty field of
@@ -90,10 +90,20 @@ def sign_pdf(pdf_bytes: bytes, *, passphrase: str, reason: str, location: str | 
         embed_validation_info=False,
         use_pades_lta=False,
     )
+    spec = style = None
+    if stamp is not None:  # the reviewer's visible stamp, in the box the record reserves
+        from pyhanko.sign.fields import SigFieldSpec
+
+        from .stamp import stamp_style
+
+        spec = SigFieldSpec(sig_field_name=field_name, on_page=stamp.page,
+                            box=tuple(stamp.rect))
+        style = stamp_style(identity.name, identity.fingerprint)
     try:
         with quiet_pyhanko():
             writer = IncrementalPdfFileWriter(BytesIO(bytes(pdf_bytes)))
-            out = signers.sign_pdf(writer, meta, signer=signer)
+            out = signers.PdfSigner(meta, signer=signer, stamp_style=style,
+                                    new_field_spec=spec).sign_pdf(writer)
     except NotAPdf:
         raise
     except Exception as exc:
@@ -110,32 +120,64 @@ def _free_field(taken: dict[str, bool], base: str) -> str:
     return f"{base}-{n}"
 
 
+def signer_certificates(pdf_bytes: bytes) -> list[tuple[str, object]]:
+    """(field, asn1 certificate) of every signature, in signing order."""
+    reader, _ = open_pdf(pdf_bytes)
+    with quiet_pyhanko():
+        sigs = sorted(reader.embedded_regular_signatures, key=lambda es: es.signed_revision)
+        return [(es.field_name, es.signer_cert) for es in sigs]
+
+
 def countersign(pdf_bytes: bytes, *, passphrase: str, reason: str = "reviewed",
                 location: str | None = None, field_name: str | None = None,
-                identity: Identity | None = None):
+                identity: Identity | None = None, installer_fingerprint: str | None = None):
     """Add the current identity's signature after the existing ones.
 
-    Refuses an unsigned file, and one whose signatures do not hold (countersigning a
-    tampered record would lend it credibility). Returns ``(signed bytes, report of
-    the file before countersigning)`` so the caller can mention trust.
+    Runs the full verification first (signatures, trust, the record, the pages) and
+    refuses a file that fails it: countersigning a tampered record would lend it
+    credibility. An installer whose certificate is not in this reviewer's trust store is
+    accepted only when ``installer_fingerprint`` (read out by the installer, typed by
+    the reviewer) is that certificate's SHA-256. Draws the reviewer's stamp in the box
+    the record reserves, when it is still free. Returns ``(signed bytes, report of the
+    file before countersigning)`` so the caller can mention trust.
     """
+    import hashlib
+
+    from ..fingerprint import readable
     from .verify import verify
 
     before = check_signatures(pdf_bytes)
     if not before.signed:
         raise UserError("nothing to countersign: the file carries no signature")
-    if not before.sound():
-        raise UserError(f"refusing to countersign: {before.first_reason()}")
-    # the whole verification of the record it carries (installer's certificate, times,
-    # every verdict), and every signature trusted by this reviewer
-    full = verify(pdf_bytes)
-    blocking = [p for p in full.problems if p != full.trust_note]
-    if blocking and full.record_embedded:
-        raise UserError(f"refusing to countersign: {blocking[0]}")
-    if not before.trusted:
-        raise UserError(f"refusing to countersign: {before.trust_note}; trust the "
-                        "installer's certificate first (check its fingerprint with them)")
-    name = field_name or _free_field(signature_fields(pdf_bytes), REVIEWER_FIELD)
+    extra = []
+    if installer_fingerprint is not None:
+        typed = "".join(installer_fingerprint.split()).replace(":", "").lower()
+        if len(typed) != 64 or any(ch not in "0123456789abcdef" for ch in typed):
+            raise UserError("--installer-fingerprint: give the 64 hex digits of the "
+                            "installer's certificate SHA-256 (spaces and colons allowed)")
+        field, cert = signer_certificates(pdf_bytes)[0]
+        actual = hashlib.sha256(cert.dump()).hexdigest()
+        if actual != typed:
+            raise UserError(f"refusing to countersign: the installer's certificate ("
+                            f"'{field}') is {readable(actual)}, not the fingerprint you "
+                            f"typed {readable(typed)}")
+        extra = [cert]
+    full = verify(pdf_bytes, extra_trust=extra)
+    if not full.ok():
+        problem = full.first_problem() or "verification failed"
+        if full.signatures and not full.signatures[0]["trusted"] and \
+                installer_fingerprint is None and problem == full.trust_note:
+            problem += ("; if the installer read you their certificate fingerprint, give "
+                        "it with --installer-fingerprint HEX")
+        raise UserError(f"refusing to countersign: {problem}")
+    taken = signature_fields(pdf_bytes)
+    record = full.content.record if full.content is not None else None
+    box = getattr(record, "reviewer_stamp", None)
+    stamp = None
+    if field_name is None and box is not None and box.field not in taken:
+        name, stamp = box.field, box
+    else:
+        name = field_name or _free_field(taken, REVIEWER_FIELD)
     signed = sign_pdf(pdf_bytes, passphrase=passphrase, reason=reason, location=location,
-                      field_name=name, identity=identity)
+                      field_name=name, identity=identity, stamp=stamp)
     return signed, before

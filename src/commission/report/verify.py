@@ -266,6 +266,19 @@ def _verify(stream, extra_trust, checklist, strict: bool, read_anyway: bool) -> 
     if content.problem:
         v.problems.append(content.problem)
     if content.ok and not v.problems and content.record is not None:
+        # nothing visible but the reviewer's stamp in its reserved box (the box is read
+        # from the signed record, so only now)
+        from .signatures import quiet_pyhanko
+        from .stamp import WidgetProblem, check_widgets
+
+        try:
+            with quiet_pyhanko():
+                sigs = sorted(reader.embedded_regular_signatures,
+                              key=lambda es: es.signed_revision)
+                check_widgets(reader, content.record, sigs)
+        except WidgetProblem as exc:
+            v.problems.append(str(exc))
+            return v
         # the pages last: they are read only once everything they are compared with holds
         from .pages import PageMismatch, check_pages
 
