@@ -42,6 +42,7 @@ class Forge:
 
     def __init__(self, demo, tmp_path, monkeypatch):
         monkeypatch.setenv("COMMISSION_HOME", str(demo["folder"]))
+        monkeypatch.setenv("COMMISSION_PASSPHRASE", PASS)  # countersign is tried too
         self.demo, self.tmp = demo, tmp_path
 
     def pdf(self, change=None, payload_change=None, name="attacked.pdf",
@@ -99,6 +100,11 @@ def _refused(cli, path: Path, reason: str, tmp_path: Path) -> None:
     assert len(lines) == 1, result.stderr
     assert re.search(reason, lines[0]), lines[0]
     assert "\x1b" not in result.stdout + result.stderr
+    out = tmp_path / "countersigned-attack.pdf"
+    countersigned = cli("countersign", path, "--out", out)
+    assert countersigned.exit_code == 2 and len(countersigned.stderr.splitlines()) == 1
+    assert re.search(reason, countersigned.stderr), countersigned.stderr
+    assert "refusing to countersign" in countersigned.stderr and not out.exists()
     target = tmp_path / "import-target.sqlite3"
     imported = cli("import", path, "--register", target)
     assert imported.exit_code == 1, imported.output

@@ -695,13 +695,15 @@ def _check(reader, trust: _Trust, structure_problem: str | None,
     now = dt.datetime.now(dt.UTC)
     untrusted: list[str] = []  # one line per signature that is not trusted
 
+    # the last signature or document timestamp: nothing may follow it
+    final = max(sigs + doc_timestamps, key=lambda es: es.signed_revision) if sigs else None
     oversized = _oversized_after(reader, sigs[0].signed_revision) if sigs else None
     if oversized:
         doc_problems.append(oversized)
     for es in sigs:
         try:
             status, info = _check_one(es, trust, key_usage, now, extended, problems,
-                                      doc_problems, untrusted, last=es is sigs[-1],
+                                      doc_problems, untrusted, last=es is final,
                                       skip_diff=bool(oversized))
         except Exception as exc:  # a container too odd to judge counts as invalid
             problems.append(f"signature '{es.field_name}' cannot be checked: {one_line(exc)}")

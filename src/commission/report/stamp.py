@@ -123,7 +123,7 @@ def _visible(annot) -> bool:
     if isinstance(normal, generic.DictionaryObject) and not isinstance(
             normal, generic.StreamObject):  # appearance states: any may be shown
         return True
-    return bool(normal.data.strip()) or "/Resources" in normal
+    return bool(normal.data.strip())  # an empty content stream draws nothing
 
 
 def _appearance_text(annot) -> tuple[str, int]:
