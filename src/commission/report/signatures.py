@@ -70,7 +70,7 @@ import datetime as dt
 import hashlib
 import logging
 from collections.abc import Iterable, Iterator
-from dataclasses import asdict, dataclass, field
+from dataclasses import dataclass, field, fields
 from typing import Any
 
 from ..errors import UserError
@@ -84,6 +84,10 @@ __all__ = ["CLOCK_SKEW", "NotAPdf", "SignatureInfo", "SignatureReport", "Timesta
 # common practice (the default maximum clock skew of Kerberos implementations; RFC 4120
 # section 1.6 assumes clocks synchronised to within minutes; from memory).
 CLOCK_SKEW = dt.timedelta(minutes=5)
+
+
+def _plain(value: Any) -> Any:
+    return value if value is None or isinstance(value, bool | int | float) else str(value)
 
 
 class NotAPdf(UserError):
@@ -103,7 +107,8 @@ class SignatureInfo:
     signing_time: str | None
 
     def as_json(self) -> dict[str, Any]:
-        return asdict(self)
+        # shallow: asdict() deep-copies, and a value read from the PDF may hold the reader
+        return {f.name: _plain(getattr(self, f.name)) for f in fields(self)}
 
 
 @dataclass
@@ -118,7 +123,8 @@ class TimestampInfo:
     trusted: bool
 
     def as_json(self) -> dict[str, Any]:
-        return asdict(self)
+        # shallow: asdict() deep-copies, and a value read from the PDF may hold the reader
+        return {f.name: _plain(getattr(self, f.name)) for f in fields(self)}
 
 
 @dataclass
@@ -661,7 +667,7 @@ def _timestamp(es, trust: _Trust, extended: bool) -> tuple[Any, TimestampInfo, s
 
         problem = (f"{label} is not trusted: timestamp authority certificate "
                    f"{readable(fp, 4)} was not added with 'commission trust add --tsa'")
-    info = TimestampInfo(field=es.field_name, tsa=tsa, fingerprint=fp,
+    info = TimestampInfo(field=str(es.field_name), tsa=str(tsa), fingerprint=fp,
                          time=attested.isoformat() if attested else None,
                          valid=valid, trusted=trusted)
     return status, info, problem
