@@ -262,6 +262,7 @@ def test_control_with_a_blank_field_and_a_countersignature_verifies(cli, maker, 
 # --------------------------------------------------------------------------- attacks
 
 
+@pytest.mark.slow  # its class is also tested fast elsewhere
 def test_page_content_changed_in_an_incremental_update(cli, maker, tmp_path):
     from pyhanko.pdf_utils import generic
 
@@ -328,6 +329,7 @@ def test_visible_signature_widget_with_a_trusted_key(cli, maker, demo, tmp_path)
             r"shows an appearance outside the box", tmp_path)
 
 
+@pytest.mark.slow  # its class is also tested fast elsewhere
 def test_visible_signature_widget_with_an_untrusted_key(cli, maker, demo, tmp_path,
                                                         monkeypatch):
     path = maker.record()
@@ -387,6 +389,7 @@ def test_attachment_added(cli, maker, demo, tmp_path):
     refused(cli, attacked, r"modified after signing", tmp_path)
 
 
+@pytest.mark.slow  # its class is also tested fast elsewhere
 def test_attachment_swapped(cli, maker, demo, tmp_path):
     """The record attachment replaced (same name) by another record's JSON."""
     from commission import record as rec
@@ -438,6 +441,7 @@ def _signed_range(data: bytes) -> tuple[int, int, int, int]:
     return tuple(int(x) for x in found[-1])  # type: ignore[return-value]
 
 
+@pytest.mark.slow  # its class is also tested fast elsewhere
 def test_byte_changed_inside_the_signed_range(cli, maker, tmp_path):
     path = maker.record()
     data = bytearray(path.read_bytes())
@@ -448,6 +452,7 @@ def test_byte_changed_inside_the_signed_range(cli, maker, tmp_path):
     refused(cli, attacked, r"altered \(digest mismatch\)", tmp_path)
 
 
+@pytest.mark.slow  # its class is also tested fast elsewhere
 def test_byte_changed_outside_the_signed_ranges(cli, maker, tmp_path):
     """The zero padding of /Contents is outside the signed ranges."""
     path = maker.record()
@@ -461,6 +466,7 @@ def test_byte_changed_outside_the_signed_ranges(cli, maker, tmp_path):
     refused(cli, attacked, r"unused space after the signature was altered", tmp_path)
 
 
+@pytest.mark.slow  # its class is also tested fast elsewhere
 def test_bytes_appended(cli, maker, tmp_path):
     path = maker.record()
     attacked = tmp_path / "appended.pdf"
@@ -482,6 +488,7 @@ def test_pages_of_another_record_around_this_record(cli, maker, tmp_path):
             r"'Job status: not-ready' but the record's status is ready", tmp_path)
 
 
+@pytest.mark.slow  # its class is also tested fast elsewhere
 def test_pages_with_another_verdict_for_one_item(cli, maker, tmp_path):
     import dataclasses
 

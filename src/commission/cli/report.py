@@ -172,8 +172,17 @@ def verify(
                        f"{'trusted' if t['trusted'] else 'not trusted'} · "
                        f"time {safe(t['time'])} (attested by the timestamp authority)")
             typer.echo(f"  certificate SHA-256 {readable(t['fingerprint'])}")
-        typer.echo(f"embedded record: {'yes' if result.record_embedded else 'no'}; hash "
-                   f"{'matches' if result.record_hash_match else 'DOES NOT match'} the pages")
+        if not result.record_embedded and result.problems:
+            typer.echo("embedded record: not read (signatures and integrity come first)")
+        else:
+            typer.echo(f"embedded record: {'yes' if result.record_embedded else 'no'}; hash "
+                       f"{'matches' if result.record_hash_match else 'DOES NOT match'} the "
+                       "document")
+        if result.pages_match:
+            typer.echo("pages: say what the record says (footers, status, every item's "
+                       "verdict and answer)")
+        elif any(p.startswith("the pages do not say") for p in result.problems):
+            typer.echo("pages: DIFFER from the record")
         content = result.content
         if content is not None and content.record is not None:
             c = content.checklist
@@ -186,12 +195,15 @@ def verify(
                 typer.echo(f"  differs: {safe(line)}")
             typer.echo(f"made by commission {safe(content.program_version)}, check logic "
                        f"{content.check_logic[0]} (this version: {content.check_logic[1]})")
-        typer.echo(f"verdicts re-evaluated: {'all match' if result.verdicts_match else 'MISMATCH'}"
-                   f"; not re-evaluable: {', '.join(result.not_reevaluable) or 'none'}")
+        if content is not None:
+            typer.echo(f"verdicts re-evaluated: "
+                       f"{'all match' if result.verdicts_match else 'MISMATCH'}"
+                       f"; not re-evaluable: {', '.join(result.not_reevaluable) or 'none'}")
         for notice in result.notices:
             if not notice.startswith("custom checklist"):
                 typer.echo(f"notice: {safe(notice)}")
-        typer.echo(f"job status in the record: {safe(result.job_status)}")
+        if result.job_status is not None:
+            typer.echo(f"job status in the record: {safe(result.job_status)}")
         if not result.timestamps:
             typer.echo("no document timestamp: signing times are as the signers' computers "
                        "claimed ('commission seal' adds one once online)")
