@@ -1,13 +1,15 @@
 """``commission verify`` on 200 MB hostile files: peak memory and time.
 
-A signed record of the demo job is made once (``commission demo``). Three hostile files
+A signed record of the demo job is made once (``commission demo``). Four hostile files
 of about 200 MB are made from it:
 
 * ``appended``: 200 MB of random bytes after the signed file's end;
 * ``attachment``: an incremental update after the signature that embeds a 200 MB
   uncompressed file (the attachment a forger adds);
 * ``re-signed``: the same update, then signed by the demo key in a new revision (so the
-  200 MB object sits inside a later signature's signed range).
+  200 MB object sits inside a later signature's signed range);
+* ``signed inside``: the record as ``report --sign`` makes it with a 200 MB attachment
+  added before the (trusted) installer signs (inside the first signed revision).
 
 Each is verified by ``commission verify FILE --trust CERT`` in a child process whose own
 peak resident set comes from ``os.wait4``; the baseline is the same command on the honest
@@ -34,13 +36,16 @@ LIMIT_MB = 300.0
 SIZE = 200 * 1024 * 1024
 
 
-def _demo(ctx: Context) -> tuple[Path, Path, Path, str]:
+def _demo(ctx: Context) -> tuple[Path, Path, Path, str, str]:
+    import re
+
     folder = ctx.scratch / "verify-demo"
     env = ctx.child_env()
-    checked(run_child([*ctx.cli, "demo", "--out", str(folder)], env=env), "demo")
+    done = checked(run_child([*ctx.cli, "demo", "--out", str(folder)], env=env), "demo")
     record = next(folder.glob("record-*.pdf"))
     passphrase = (folder / "demo-passphrase.txt").read_text(encoding="utf-8").strip()
-    return folder, record, folder / "identity" / "cert.pem", passphrase
+    job = re.search(r"demo job (\w+)", done.out).group(1)
+    return folder, record, folder / "identity" / "cert.pem", passphrase, job
 
 
 def _random_chunk() -> bytes:
@@ -78,23 +83,61 @@ def make_resigned(attached: Path, out: Path, home: Path, passphrase: str) -> Non
     out.write_bytes(signed)
 
 
+def make_signed_inside(home: Path, job: str, out: Path, passphrase: str) -> None:
+    """The record as `report --sign` makes it, with a 200 MB attachment added before the
+    (trusted) installer signs: the large object is inside the signed revision."""
+    os.environ["COMMISSION_HOME"] = str(home)
+    from pyhanko.pdf_utils import embed
+    from pyhanko.pdf_utils.incremental_writer import IncrementalPdfFileWriter
+
+    from commission.register import Register
+    from commission.report import build, pdf, signing
+    from commission.resources import resolve
+    from commission.walk.state import JobState
+
+    original = signing.sign_pdf
+
+    def with_attachment(doc: bytes, **kw):
+        writer = IncrementalPdfFileWriter(io.BytesIO(doc))
+        blob = _random_chunk() * (SIZE // (1 << 20))
+        data = embed.EmbeddedFileObject.from_file_data(writer, data=blob, compress=False)
+        embed.embed_file(writer, embed.FileSpec(file_spec_string="f" * 64, file_name="big.bin",
+                                                embedded_data=data))
+        buf = io.BytesIO()
+        writer.write(buf)
+        return original(buf.getvalue(), **kw)
+
+    signing.sign_pdf = with_attachment
+    try:
+        with Register(home / "register.sqlite3", create=False) as reg:
+            state = JobState(reg, reg.find_job(job))
+            made = build.make(state, pdf.load_form(resolve("forms", "handover")), sign=True,
+                              passphrase=passphrase)
+            state.files.close()
+    finally:
+        signing.sign_pdf = original
+    out.write_bytes(made.pdf)
+
+
 def run(ctx: Context) -> list[Figure]:
     with stopwatch() as made:
-        folder, record, cert, passphrase = _demo(ctx)
+        folder, record, cert, passphrase, job = _demo(ctx)
         files = {"appended": ctx.scratch / "hostile-appended.pdf",
                  "attachment": ctx.scratch / "hostile-attachment.pdf",
-                 "re-signed": ctx.scratch / "hostile-resigned.pdf"}
+                 "re-signed": ctx.scratch / "hostile-resigned.pdf",
+                 "signed inside": ctx.scratch / "hostile-signed-inside.pdf"}
         make_appended(record, files["appended"])
         make_attachment(record, files["attachment"])
         saved = os.environ.get("COMMISSION_HOME")
         try:
             make_resigned(files["attachment"], files["re-signed"], folder, passphrase)
+            make_signed_inside(folder, job, files["signed inside"], passphrase)
         finally:
             if saved is None:
                 os.environ.pop("COMMISSION_HOME", None)
             else:
                 os.environ["COMMISSION_HOME"] = saved
-    ctx.say(f"made the demo record and 3 hostile files in {made[0]:.0f} s")
+    ctx.say(f"made the demo record and 4 hostile files in {made[0]:.0f} s")
     env = ctx.child_env()
     argv = [*ctx.cli, "verify", "--trust", str(cert)]
     checked(run_child([*argv, str(record)], env=env), "verify honest record")  # warm caches

@@ -245,19 +245,29 @@ def _field_name(annot) -> str:
     return ".".join(reversed(parts))
 
 
-def _pages(reader):
+MAX_PAGES = 10_000
+
+
+def _pages(reader) -> list[Any]:
+    """The page dictionaries in order; a page tree with a cycle or beyond
+    :data:`MAX_PAGES` is cut short (pyHanko's own checks judge such a tree)."""
+    out: list[Any] = []
+    seen: set[int] = set()
     try:
-        return list(reader.root["/Pages"]["/Kids"] and _walk(reader.root["/Pages"]))
+        stack = [(reader.root["/Pages"], 0)]
     except Exception:  # noqa: BLE001
-        return []
-
-
-def _walk(node, depth: int = 0):
-    node = node.get_object()
-    if depth > 32:
-        return
-    if str(node.get("/Type", "")) == "/Pages" or "/Kids" in node:
-        for kid in node["/Kids"]:
-            yield from _walk(kid, depth + 1)
-    else:
-        yield node
+        return out
+    while stack and len(out) < MAX_PAGES:
+        node, depth = stack.pop()
+        try:
+            node = node.get_object()
+        except Exception:  # noqa: BLE001
+            continue
+        if id(node) in seen or depth > 32:
+            continue
+        seen.add(id(node))
+        if "/Kids" in node:
+            stack.extend((kid, depth + 1) for kid in reversed(list(node["/Kids"])))
+        else:
+            out.append(node)
+    return out

@@ -117,6 +117,8 @@ class Attachments(Mapping[str, bytes]):
 
     def __init__(self, reader, limit: int = rec.ATTACH_LIMIT):
         self._specs = _embedded_specs(reader.root)
+        self._reader = reader
+        self._sorted: list[int] | None = None
         self._limit = limit
         self._cache: dict[str, bytes] = {}
 
@@ -146,6 +148,44 @@ class Attachments(Mapping[str, bytes]):
 
     def __getitem__(self, name: str) -> bytes:
         return self.read(name)
+
+    def stored_size(self, name: str) -> int | None:
+        """The bytes the attachment's stream object takes in the file, measured from the
+        cross-reference offsets without reading it (None when it cannot be told)."""
+        import bisect
+
+        from pyhanko.pdf_utils import generic
+
+        try:
+            spec = self._specs[name].get_object()
+            raw = spec["/EF"].raw_get("/F")
+            if not isinstance(raw, generic.IndirectObject):
+                return None
+            pos = self._reader.xrefs[raw.reference]
+            if not isinstance(pos, int):
+                return None  # inside an object stream: bounded by that stream
+            ordered = self._offsets()
+            k = bisect.bisect_right(ordered, pos)
+            return (ordered[k] if k < len(ordered) else pos) - pos
+        except Exception:  # noqa: BLE001 — read it (bounded) and see
+            return None
+
+    def _offsets(self) -> list[int]:
+        import os
+
+        if self._sorted is None:
+            xrefs = self._reader.xrefs
+            found: set[int] = set()
+            for rev in range(xrefs.total_revisions):
+                data = xrefs.get_xref_data(rev)
+                found.update(pos for _, pos in data.standard_xrefs.values())
+                found.add(xrefs.get_startxref_for_revision(rev))
+            stream = self._reader.stream
+            here = stream.tell()
+            found.add(stream.seek(0, os.SEEK_END))
+            stream.seek(here)
+            self._sorted = sorted(found)
+        return self._sorted
 
 
 def attachments(reader) -> Attachments:
@@ -235,6 +275,14 @@ def _verify(stream, extra_trust, checklist, strict: bool, read_anyway: bool) -> 
         return v
     from ..record.strictjson import MAX_RECORD_BYTES
 
+    # an attachment far over its limit is refused before its stream is read at all
+    for name in files:
+        cap = MAX_RECORD_BYTES if name == rec.RECORD_NAME else rec.ATTACH_LIMIT
+        size = files.stored_size(name)
+        if size is not None and size > cap + cap // 100 + 65536:
+            v.problems.append(f"attachment {rec.safe(name)[:40]!r} takes {size} bytes in the "
+                              f"file, over the {cap}-byte limit: refused unread")
+            return v
     try:
         payload = files.read(rec.RECORD_NAME, MAX_RECORD_BYTES)
     except KeyError:
