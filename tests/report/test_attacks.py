@@ -521,3 +521,31 @@ def test_no_record_at_all_is_not_a_commission_record(cli, tmp_path):
     assert len(result.stderr.splitlines()) == 1
     target = tmp_path / "t.sqlite3"
     assert cli("import", plain, "--register", target).exit_code == 2 and not target.exists()
+
+
+def test_attachment_over_its_limit_inside_the_signed_revision(cli, maker, tmp_path,
+                                                              monkeypatch):
+    """A file over the attachment limit, added before the (trusted) installer signs, is
+    refused from its size in the file, before its stream is read (the limit lowered to
+    64 KiB here so the file stays small; benchmarks/bench_verify.py does it with 200 MB)."""
+    import os
+
+    from commission import record as rec
+
+    def big(doc: bytes) -> bytes:
+        w = _writer(doc)
+        _embed_raw(w, "f" * 64, os.urandom(400_000))
+        return _out(w)
+
+    attacked = maker.record("big.pdf", before_sign=big)
+    monkeypatch.setattr(rec, "ATTACH_LIMIT", 64 * 1024)
+    refused(cli, attacked, r"attachment 'f{40}' takes \d+ bytes in the file, over the "
+            r"65536-byte limit: refused unread", tmp_path)
+
+
+def _embed_raw(w, name: str, data: bytes) -> None:
+    from pyhanko.pdf_utils import embed
+
+    blob = embed.EmbeddedFileObject.from_file_data(w, data=data, compress=False)
+    embed.embed_file(w, embed.FileSpec(file_spec_string=name, file_name=name,
+                                       embedded_data=blob))
