@@ -103,11 +103,11 @@ def _fill(reg, n_jobs: int, per_job: int, say) -> None:
                 for row in jobs:
                     copy.write_row(row)
             ids = dict(cur.execute("SELECT short_id, id FROM jobs").fetchall())
-            cur.execute("ALTER TABLE entries DISABLE TRIGGER job_heads_new_entry")
+            cur.execute("ALTER TABLE entries DISABLE TRIGGER job_heads_new_entries")
             with cur.copy(f"COPY entries ({ecols}) FROM STDIN") as copy:
                 for j, r in _entry_rows(n_jobs, per_job):
                     copy.write_row((r[0], ids[f"B{j:07d}"], *r[1:6], *r[7:10]))
-            cur.execute("ALTER TABLE entries ENABLE TRIGGER job_heads_new_entry")
+            cur.execute("ALTER TABLE entries ENABLE TRIGGER job_heads_new_entries")
             cur.execute("UPDATE job_heads h SET last_entry = m.k FROM (SELECT job_id,"
                         " max(at || ' ' || uuid) AS k FROM entries GROUP BY job_id) m"
                         " WHERE m.job_id = h.job_id")

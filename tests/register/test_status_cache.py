@@ -124,3 +124,21 @@ def test_heads_follow_entries_by_time_not_arrival(engine_reg, n):
     engine_reg.add_entry(job, "supply.voltage", "answer", "229", 229.0,
                          at="2026-05-02T10:00:00.000Z")
     assert engine_reg.list_jobs()[0][0][2] is True  # current is still the 11:00 one
+
+
+def test_heads_after_a_batch_of_entries(engine_reg):
+    """A sync's batch (one statement on PostgreSQL) leaves each job's head on its latest
+    entry and its latest amendment, whatever their order in the batch."""
+    job = _new(engine_reg, "Larch House", installer="Ann")
+    rows = [(f"00000000-0000-4000-8000-00000000000{n}", item, action, raw, json.dumps(raw),
+             None, None, at, "t", "dev-x", None)
+            for n, (item, action, raw, at) in enumerate([
+                ("job.installer", "detail", "Cy", "2026-05-02T12:00:00.000Z"),
+                ("job.installer", "detail", "Ben", "2026-05-02T10:00:00.000Z"),
+                ("supply.voltage", "answer", "231", "2026-05-02T11:00:00.000Z"),
+                ("supply.voltage", "answer", "236", "2026-05-02T09:00:00.000Z")])]
+    assert engine_reg.insert_entries(job, rows) == 4
+    assert engine_reg.list_jobs(installer="Cy")[1] == 1
+    assert engine_reg.list_jobs(installer="Ben")[1] == 0
+    JobState(engine_reg, job).remember_status()
+    assert engine_reg.list_jobs()[0][0][2] is True  # the head is the 11:00 reading

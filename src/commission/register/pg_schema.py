@@ -11,7 +11,7 @@ prefixes that keep short job ids unique across a company's laptops.
 
 from __future__ import annotations
 
-PG_SCHEMA_VERSION = 3
+PG_SCHEMA_VERSION = 4
 
 PG_MIGRATIONS: dict[int, str] = {
     1: """
@@ -267,5 +267,40 @@ PG_MIGRATIONS: dict[int, str] = {
         USING (true);
     GRANT SELECT, INSERT, UPDATE ON job_status TO commission_installer,
         commission_reviewer, commission_office;
+    """,
+    # 4: the job heads follow new entries once per statement (a transition table) instead
+    # of once per row: a sync's batch of thousands of entries updates each job's head once.
+    4: """
+    DROP TRIGGER job_heads_new_entry ON entries;
+    CREATE FUNCTION commission_job_heads_batch() RETURNS trigger LANGUAGE plpgsql
+        SECURITY DEFINER SET search_path = public AS $$
+    BEGIN
+        UPDATE job_heads h SET last_entry = m.k
+            FROM (SELECT job_id, max(at || ' ' || uuid) AS k FROM new_rows
+                  WHERE action != 'detail' GROUP BY job_id) m
+            WHERE h.job_id = m.job_id AND h.last_entry < m.k;
+        UPDATE job_heads h SET site = d.v, site_key = d.k
+            FROM (SELECT DISTINCT ON (job_id) job_id, value_json::json #>> '{}' AS v,
+                         at || ' ' || uuid AS k FROM new_rows
+                  WHERE action = 'detail' AND item_id = 'job.site'
+                  ORDER BY job_id, at DESC, uuid DESC) d
+            WHERE h.job_id = d.job_id AND h.site_key < d.k;
+        UPDATE job_heads h SET installer = d.v, installer_key = d.k
+            FROM (SELECT DISTINCT ON (job_id) job_id, value_json::json #>> '{}' AS v,
+                         at || ' ' || uuid AS k FROM new_rows
+                  WHERE action = 'detail' AND item_id = 'job.installer'
+                  ORDER BY job_id, at DESC, uuid DESC) d
+            WHERE h.job_id = d.job_id AND h.installer_key < d.k;
+        UPDATE job_heads h SET next_inspection = d.v, next_inspection_key = d.k
+            FROM (SELECT DISTINCT ON (job_id) job_id, value_json::json #>> '{}' AS v,
+                         at || ' ' || uuid AS k FROM new_rows
+                  WHERE action = 'detail' AND item_id = 'job.next_inspection'
+                  ORDER BY job_id, at DESC, uuid DESC) d
+            WHERE h.job_id = d.job_id AND h.next_inspection_key < d.k;
+        RETURN NULL;
+    END $$;
+    CREATE TRIGGER job_heads_new_entries AFTER INSERT ON entries
+        REFERENCING NEW TABLE AS new_rows
+        FOR EACH STATEMENT EXECUTE FUNCTION commission_job_heads_batch();
     """,
 }

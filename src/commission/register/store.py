@@ -714,14 +714,13 @@ class Register:
         one transaction. Returns how many were new."""
         serials = {i.serial: i.id for i in self.instruments()}
         with self._transaction():
-            before = self.db.total_changes
-            self.db.executemany(
+            cur = self.db.executemany(
                 "INSERT INTO entries (uuid, job_id, item_id, action, raw, value_json,"
                 " unit_typed, instrument_id, at, by, host, read_with)"
                 " VALUES (?,?,?,?,?,?,?,?,?,?,?,?) ON CONFLICT(uuid) DO NOTHING",
                 [(r[0], job.id, r[1], r[2], r[3], r[4], r[5], serials.get(r[6] or ""), r[7],
                   r[8], r[9], r[10]) for r in rows])
-            return self.db.total_changes - before
+            return cur.rowcount  # rows inserted (the triggers' own changes not counted)
 
     def job_row(self, job: Job) -> dict[str, Any]:
         row = self.db.execute("SELECT * FROM jobs WHERE id = ?", (job.id,)).fetchone()

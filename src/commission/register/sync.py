@@ -31,7 +31,7 @@ from .store import DETAIL_FIELDS, Job, now_iso
 # A portable entry row: the instrument by serial (ids are per register).
 ENTRY_FIELDS = ("uuid", "item_id", "action", "raw", "value_json", "unit_typed", "serial",
                 "at", "by", "host", "read_with")
-BATCH = 500
+BATCH = 2000  # entries per transaction on the receiving side
 
 
 @dataclass
