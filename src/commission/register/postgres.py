@@ -67,6 +67,7 @@ class PostgresRegister:
         self.read_only = False
         self._conn: Any = None
         self._device: str | None = None
+        self._role: str | None = None
         self.hook: Any = None  # tests: called inside transactions, to cut the connection there
 
     # -- opening, closing, migrations ----------------------------------------
@@ -92,6 +93,7 @@ class PostgresRegister:
         self._migrate()
 
     def close(self) -> None:
+        self._role = None
         if self._conn is not None:
             with contextlib.suppress(Exception):
                 self._conn.close()
@@ -200,7 +202,7 @@ class PostgresRegister:
         name = _who()
         if name != "unknown":
             return name
-        return "role:" + self._x("SELECT session_user").fetchone()[0]
+        return "role:" + self.role()
 
     # -- jobs ------------------------------------------------------------------
     def create_job(self, checklist, details: dict[str, str], by: str | None = None) -> Job:
@@ -292,11 +294,13 @@ class PostgresRegister:
                   host: str | None = None, read_with: dict[str, Any] | None = None) -> Entry:
         device = self.device_id() if host is None else host
         with self._tx():
-            prev = self._x("SELECT id FROM entries WHERE job_id = %s AND item_id = %s"
-                           " ORDER BY at DESC, uuid DESC LIMIT 1", (job.id, item_id)).fetchone()
+            # one round trip for both: the entry this one supersedes, the job's last time
+            prev, last = self._x(
+                "SELECT (SELECT id FROM entries WHERE job_id = %s AND item_id = %s"
+                " ORDER BY at DESC, uuid DESC LIMIT 1),"
+                " (SELECT max(at) FROM entries WHERE job_id = %s)",
+                (job.id, item_id, job.id)).fetchone()
             if at is None:
-                last = self._x("SELECT max(at) FROM entries WHERE job_id = %s",
-                               (job.id,)).fetchone()[0]
                 at = later_than(last)
             row = self._x(
                 "INSERT INTO entries (uuid, job_id, item_id, action, raw, value_json,"
@@ -304,7 +308,7 @@ class PostgresRegister:
                 f" VALUES (%s,%s,%s,%s,%s,%s,%s,%s,%s,%s,%s,%s,%s) RETURNING {_ENTRY_COLS}",
                 (uuid or str(uuidlib.uuid4()), job.id, item_id, action, raw,
                  json.dumps(value, ensure_ascii=False), unit_typed, instrument_id, at,
-                 by or self.who(), prev[0] if prev else None, device,
+                 by or self.who(), prev, device,
                  json.dumps(read_with, sort_keys=True) if read_with else None)).fetchone()
         return _entry(row)
 
@@ -548,7 +552,10 @@ class PostgresRegister:
             f"SELECT {_JOB_COLS} FROM jobs WHERE assigned_to = %s ORDER BY id", (role,))]
 
     def role(self) -> str:
-        return self._x("SELECT session_user").fetchone()[0]
+        """The database role of this connection (asked once)."""
+        if self._role is None:
+            self._role = self._x("SELECT session_user").fetchone()[0]
+        return self._role
 
     def conflicts(self, job: Job | None = None) -> list[dict[str, str]]:
         sql = ("SELECT job_uuid, item_id, entry_uuids, flagged_at, confirmed_by, confirmed_at"
