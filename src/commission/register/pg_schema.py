@@ -279,6 +279,9 @@ PG_MIGRATIONS: dict[int, str] = {
             FROM (SELECT job_id, max(at || ' ' || uuid) AS k FROM new_rows
                   WHERE action != 'detail' GROUP BY job_id) m
             WHERE h.job_id = m.job_id AND h.last_entry < m.k;
+        IF NOT EXISTS (SELECT 1 FROM new_rows WHERE action = 'detail') THEN
+            RETURN NULL;  -- a reading: no detail to follow (the walk's usual case)
+        END IF;
         UPDATE job_heads h SET site = d.v, site_key = d.k
             FROM (SELECT DISTINCT ON (job_id) job_id, value_json::json #>> '{}' AS v,
                          at || ' ' || uuid AS k FROM new_rows
