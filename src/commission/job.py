@@ -105,7 +105,8 @@ class JobState:
         (entries are append-only and every one goes through ``_append``)."""
         if self._results is None or self._results[0] != len(self.entries):
             self._results = (len(self.entries),
-                             evaluate(self.checklist, self.entries, self.instruments, self.files))
+                             evaluate(self.checklist, self.entries, self.instruments, self.files,
+                                      baseline=self.job.baseline or None))
         return self._results[1]
 
     def status(self, results: list[Result] | None = None) -> str:
@@ -153,7 +154,9 @@ class JobState:
         if item.kind == "file" and read_with is None:
             read_with = profile
         now = self.current(item.id)
+        # a starting answer carried from the baseline is confirmed by a new entry of today
         if (now is not None and now.action == "answer" and now.raw == raw
+                and not getattr(now, "carried", None)
                 and now.value == value and now.instrument_id == instrument_id
                 and now.read_with == (read_with or None)):
             return None

@@ -133,6 +133,9 @@ def table(results: list[Result], colour: bool = False) -> list[str]:
         verdict = word(f"{r.verdict:<8}", colour) if colour else f"{r.verdict:<8}"
         ident = r.item.id if len(r.item.id) <= 33 else _clip(r.item.id, 33)
         lines.append(f"{verdict} {mark}{ident:<33} {_clip(value, WIDTH - 44)}".rstrip())
+        if r.entry is not None and getattr(r.entry, "carried", None):
+            lines.append(" " * 10 + f"carried from the baseline ({r.entry.at[:10]}); confirm "
+                         "or change it")
         if r.verdict in ("pending", "recorded"):
             continue
         detail = r.reason

@@ -27,6 +27,7 @@ def _entry_json(e: Entry, instruments: dict[int, Instrument],
         "by": e.by,
         "host": e.host,
         "supersedes": uuids.get(e.supersedes) if e.supersedes else None,
+        "carried_from_baseline": getattr(e, "carried", None),
     }
 
 
@@ -56,6 +57,7 @@ def item_json(r: Result, instruments: dict[int, Instrument],
         "source": r.source,
         "instrument": inst.serial if inst else None,
         "time": e.at if e else None,
+        "carried_from_baseline": bool(e is not None and getattr(e, "carried", None)),
         "history": [_entry_json(h, instruments, uuids or {}) for h in r.history],
     }
 
@@ -81,6 +83,7 @@ def job_json(state: JobState, results: list[Result] | None = None) -> dict[str, 
     return {
         "job": state.job.as_json(),
         "unverified": state.job.unverified,
+        "baseline": state.job.baseline or None,
         "judged_differently": judged_differently(state, results),
         "status": state.status(results),
         "status_reasons": status_reasons(results),

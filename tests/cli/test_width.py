@@ -99,6 +99,11 @@ def commands(world) -> list[tuple[str, list[str]]]:
                   "--out", str(base / "sealed.pdf")]),
         ("verify", ["verify", str(record), "--trust", str(demo / "identity" / "cert.pem")]),
         ("import", ["import", str(record), "--register", str(base / "imported.sqlite3")]),
+        ("revisit", ["revisit", str(record), "--checklist", "diverter-1ph-periodic",
+                     "--trust", str(demo / "identity" / "cert.pem"),
+                     "--register", str(base / "revisit.sqlite3")]),
+        ("revisit", ["revisit", str(record), "--checklist", "diverter-1ph-periodic",
+                     "--register", str(base / "revisit.sqlite3")]),  # refused: not trusted
         ("blank", ["blank", "diverter-1ph", "--out", str(base / "blank.pdf")]),
         ("checklists validate", ["checklists", "validate", "diverter-1ph"]),
         ("checklists validate", ["checklists", "validate", str(broken)]),

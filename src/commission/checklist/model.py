@@ -152,6 +152,21 @@ class Interval(Strict):
     source: str = Field(min_length=1)
 
 
+class Revisit(Strict):
+    """What a periodic-inspection checklist takes from its baseline (issue 14)."""
+
+    carry: list[str] = Field(
+        default_factory=list,
+        description="section or item ids whose baseline answers are carried as starting "
+        "answers (site and installation details, settings)")
+    temperature: str | None = Field(
+        default=None, description="a temperature reading item: the ambient or conductor "
+        "temperature at the tests, used to allow for copper's resistance change")
+    params: dict[str, float] = Field(
+        default_factory=dict,
+        description="change limits replacing the defaults (see commission.checks.change)")
+
+
 class Item(Strict):
     id: str = Field(pattern=ID_PATTERN, description="stable dotted id, e.g. supply.voltage")
     kind: Literal["confirm", "reading", "choice", "text", "file", "photo"]
@@ -271,6 +286,30 @@ class Checklist(Strict):
     inspection_interval: Interval | None = Field(
         default=None, description="time to the next inspection or service, with its source")
     sections: list[Section] = Field(min_length=1)
+    revisit: Revisit | None = Field(
+        default=None, description="a periodic-inspection checklist: what it carries from "
+        "the baseline record and compares with it")
+
+    @model_validator(mode="after")
+    def _revisit_refs(self) -> Checklist:
+        if self.revisit is None:
+            return self
+        sections = {s.id for s in self.sections}
+        items = {i.id: i for s in self.sections for i in s.items}
+        for ref in self.revisit.carry:
+            if ref not in sections and ref not in items:
+                raise ValueError(f"revisit.carry: '{ref}' is neither a section nor an item")
+        t = self.revisit.temperature
+        if t is not None and (t not in items or items[t].quantity != "temperature"):
+            raise ValueError(f"revisit.temperature: '{t}' is not a temperature reading item")
+        return self
+
+    def carried_ids(self) -> list[str]:
+        """The items whose baseline answers a revisit carries, in walk order."""
+        if self.revisit is None:
+            return []
+        refs = set(self.revisit.carry)
+        return [i.id for s in self.sections for i in s.items if s.id in refs or i.id in refs]
 
     @field_validator("version", mode="before")
     @classmethod

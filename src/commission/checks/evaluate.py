@@ -83,11 +83,14 @@ def evaluate(
     entries: Iterable[Entry],
     instruments: dict[int, Instrument] | None = None,
     files: Any = None,
+    baseline: dict[str, Any] | None = None,
 ) -> list[Result]:
     """One Result per item, in walk order.
 
     ``files`` gives checks the bytes of recorded files: an object with
     ``path(sha256) -> Path | None`` and a ``memo`` dict (see job.FileStore).
+    ``baseline`` (a revisit job's, commission.baseline) adds the change since it to every
+    repeated reading and carried answer (commission.checks.change).
     """
     instruments = instruments or {}
     current, history = current_entries(entries)

@@ -6,7 +6,18 @@ import sys
 
 import typer
 
-from . import analyse, checklists, demo, forms, identity, instruments, jobs, report, walk
+from . import (
+    analyse,
+    checklists,
+    demo,
+    forms,
+    identity,
+    instruments,
+    jobs,
+    report,
+    revisit,
+    walk,
+)
 from . import sync as sync_cmd
 from .common import friendly
 
@@ -43,6 +54,7 @@ app.command("seal")(friendly(report.seal))
 app.command("sync")(friendly(sync_cmd.sync))
 app.command("confirm")(friendly(sync_cmd.confirm))
 app.command("assign")(friendly(sync_cmd.assign))
+app.command("revisit")(friendly(revisit.revisit))
 
 
 def _plain(value: bool) -> bool:

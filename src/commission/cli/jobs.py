@@ -119,7 +119,10 @@ def jobs(
                                                    True) for job, st, fresh in rows]
     if as_json:
         emit_json([{**job.as_json(), "status": st or "not derived", "status_current": fresh,
-                    "unverified": job.unverified} for job, st, fresh in rows])
+                    "unverified": job.unverified,
+                    "baseline_record_sha256": job.baseline.get("record_sha256"),
+                    "baseline_verified": job.baseline.get("verified")}
+                   for job, st, fresh in rows])
         return
     if not rows:
         if total or status or installer or due:
@@ -134,6 +137,9 @@ def jobs(
     stale = 0
     for job, st, fresh in rows:
         mark = "  UNVERIFIED import" if job.unverified else ""
+        if job.baseline:
+            mark += (f"  revisit of {job.baseline['job']}" +
+                     ("" if job.baseline["verified"] else " (UNVERIFIED baseline)"))
         shown = st or "not derived"
         if not fresh:
             shown += "*"
@@ -204,6 +210,13 @@ def show(
     echo(f"  checklist: {c.id} {c.version} (sha256 {j.checklist_sha256[:12]}…)")
     if j.unverified:
         echo("  UNVERIFIED import: this job came from a record that did not verify")
+    if j.baseline:
+        b = j.baseline
+        echo(f"  revisit of job {b['job']}: baseline record sha256 {b['record_sha256']} (made "
+             f"{b['made_at'][:10]}, status {b['status']}, "
+             f"{'verified' if b['verified'] else 'UNVERIFIED'})")
+        if not b["verified"]:
+            echo("  UNVERIFIED baseline: the record this revisit compares with did not verify")
     status = state.status(results)
     echo(f"Status: {word(status, colour)}")
     for reason in status_reasons(results):

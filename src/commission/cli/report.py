@@ -269,6 +269,7 @@ def import_(
             "claims a released version" not in content.problem:
         raise UserError(f"{file}: {content.problem}; not imported")
     record = content.record
+    from ..record import RECORD_NAME
     from ..report.signatures import open_pdf
     from ..report.source import opened
     from ..report.verify import attachments
@@ -282,7 +283,11 @@ def import_(
             except KeyError:
                 continue
     state = "verified" if result.ok() else "unverified"
-    short, restored = restore(register, record, files, imported=state)
+    from ..record import record_hash
+
+    payload = files.get(RECORD_NAME)
+    short, restored = restore(register, record, files, imported=state,
+                              record_sha256=record_hash(payload) if payload else "")
     if state == "unverified":
         typer.echo(f"imported UNVERIFIED ({safe(result.first_problem())})")
     typer.echo(f"imported job {safe(short)} with {len(record.entries)} entries and "

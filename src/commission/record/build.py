@@ -65,6 +65,8 @@ def _entry(e, instruments, uuids: dict[int, str], kinds: dict[str, str]) -> dict
     # used, so records without one keep their shape)
     if getattr(e, "read_with", None):
         out["read_with"] = e.read_with
+    if getattr(e, "carried", None):  # a revisit's starting answer, carried from its baseline
+        out["carried"] = e.carried
     return out
 
 
@@ -119,6 +121,8 @@ def build(state, results, generated_at: str, signing: SigningInfo | None = None,
     due = next_inspection(job.details, state.checklist, generated_at)
     data["next_inspection"] = {"date": due[0], "source": due[1]} if due else None
     data["language"] = job.details.get("language") or "en"
+    if job.baseline:  # a periodic inspection: the baseline it was compared with
+        data["baseline"] = job.baseline
     try:
         parse(data)
     except RecordError as exc:

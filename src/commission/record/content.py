@@ -411,7 +411,8 @@ def entries_from_record(record: AnyRecord):
                                     acc.read_as if acc else "")
         by_serial[inst.serial] = n
     entries = [Entry(n, e.uuid, e.item, e.action, e.raw, e.value, e.unit_typed,
-                     by_serial.get(e.instrument or ""), e.at, "", None, "", e.read_with)
+                     by_serial.get(e.instrument or ""), e.at, "", None, "", e.read_with,
+                     getattr(e, "carried", None))
                for n, e in enumerate(record.entries, start=1)]
     for n, e in enumerate(record.entries):
         if e.instrument is not None and e.instrument not in by_serial:
@@ -426,7 +427,9 @@ def _reevaluate(record: AnyRecord, checklist, files: FilesFromPdf,
 
     entries, instruments = entries_from_record(record)
     try:
-        results = evaluate(checklist, entries, instruments, files)
+        baseline = getattr(record, "baseline", None)
+        results = evaluate(checklist, entries, instruments, files,
+                           baseline=baseline.model_dump(mode="json") if baseline else None)
     except (UserError, KeyError, TypeError, ValueError, ArithmeticError) as exc:
         raise ContentFailure(f"the record cannot be re-evaluated: {exc}") from None
     finally:

@@ -38,6 +38,10 @@ RELEASED: dict[str, dict[str, tuple[str, ...]]] = {
         "1.1.0": ("8521ceafa6774608d5cdfc10a54044f7fd37b423c79a9012272c00428d26ec70",),
         "1.2.0": ("c37be6a6a1b5ce500f2a6f86f844a326092176eb5a35dfd2895bc6cd83c6d3d3",),
     },
+    # The periodic inspection (issue 14), resolved against diverter-1ph 1.6.0.
+    "diverter-1ph-periodic": {
+        "1.0.0": ("39e2e885fa721562656d62cf3148ccc873bd48229c092c8ff6eaac3928509fb9",),
+    },
 }
 
 

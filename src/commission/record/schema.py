@@ -244,6 +244,39 @@ class Entry(_Strict):
     # the export profile a file was read with (columns, time format and zone, scales), so
     # verify reads the file the same way; present only when a profile was used
     read_with: dict[str, Any] | None = None
+    carried: Sha256 | None = None  # a revisit's starting answer: the baseline record's hash
+
+
+class BaselineReading(_Strict):
+    """A repeated reading as an earlier visit judged it (the measured value of its verdict)."""
+
+    value: Finite
+    unit: Line | None
+    at: Timestamp  # when the reading was taken
+
+
+class Visit(_Strict):
+    """One earlier visit: its record by SHA-256, when it was made, and its readings."""
+
+    record_sha256: Sha256
+    made_at: Timestamp
+    readings: Annotated[dict[ItemId, BaselineReading], Field(max_length=MAX_ITEMS)]
+    temperature_c: Finite | None = None  # ambient or conductor temperature at the tests
+
+
+class Baseline(_Strict):
+    """What a periodic inspection was compared with: the baseline record (the last visit)
+    named by the SHA-256 of its canonical JSON, and every earlier visit for the trends."""
+
+    record_sha256: Sha256
+    job: Line
+    uuid: Uuid
+    site: Text = ""
+    made_at: Timestamp
+    status: Literal[STATUSES]  # type: ignore[valid-type]
+    verified: StrictBool  # False: the revisit was started from an unverified baseline
+    checklist: Line  # "id version"
+    visits: Annotated[list[Visit], Field(min_length=1, max_length=200)]
 
 
 class Record(_Strict):
@@ -260,6 +293,7 @@ class Record(_Strict):
     signing: SigningInfo | None = None
     next_inspection: NextInspection | None = None  # when the installation is due again
     language: Line = "en"  # of the homeowner's pages
+    baseline: Baseline | None = None  # a periodic inspection: the record it was compared with
 
     @property
     def check_logic(self) -> int:

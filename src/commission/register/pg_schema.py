@@ -11,7 +11,7 @@ prefixes that keep short job ids unique across a company's laptops.
 
 from __future__ import annotations
 
-PG_SCHEMA_VERSION = 4
+PG_SCHEMA_VERSION = 5
 
 PG_MIGRATIONS: dict[int, str] = {
     1: """
@@ -305,5 +305,13 @@ PG_MIGRATIONS: dict[int, str] = {
     CREATE TRIGGER job_heads_new_entries AFTER INSERT ON entries
         REFERENCING NEW TABLE AS new_rows
         FOR EACH STATEMENT EXECUTE FUNCTION commission_job_heads_batch();
+    """,
+    # 5: periodic inspection (issue 14), as SQLite step 10: a revisit job's baseline (JSON),
+    # the SHA-256 of the record an imported job came from, and on an entry carried from the
+    # baseline as a starting answer, the baseline record's SHA-256.
+    5: """
+    ALTER TABLE jobs ADD COLUMN baseline TEXT NOT NULL DEFAULT '';
+    ALTER TABLE jobs ADD COLUMN record_sha256 TEXT NOT NULL DEFAULT '';
+    ALTER TABLE entries ADD COLUMN carried TEXT;
     """,
 }

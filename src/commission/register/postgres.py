@@ -35,12 +35,12 @@ from .store import (
 from .store import who as _who
 
 _ENTRY_COLS = ("id, uuid, item_id, action, raw, value_json, unit_typed, instrument_id, at, by,"
-               " supersedes, host, read_with")
+               " supersedes, host, read_with, carried")
 _INSTRUMENT_COLS = ("id, serial, make, model, calibration_due, added_at, accuracy,"
                     " accuracy_read_as")
 _JOB_COLS = ("id, short_id, uuid, created_at, created_by, " + ", ".join(DETAIL_FIELDS)
              + ", checklist_id, checklist_version, checklist_sha256, checklist_text,"
-             " checklist_source, imported, recorded")
+             " checklist_source, imported, recorded, baseline, record_sha256")
 
 
 def _password_in(url: str) -> bool:
@@ -205,7 +205,8 @@ class PostgresRegister:
         return "role:" + self.role()
 
     # -- jobs ------------------------------------------------------------------
-    def create_job(self, checklist, details: dict[str, str], by: str | None = None) -> Job:
+    def create_job(self, checklist, details: dict[str, str], by: str | None = None,
+                   baseline: dict[str, Any] | None = None) -> Job:
         import psycopg
 
         prefix = self.join(self.device_id())
@@ -214,27 +215,31 @@ class PostgresRegister:
             try:
                 return self.insert_job(short_id=short, uuid=str(uuidlib.uuid4()),
                                        created_at=now_iso(), created_by=by or self.who(),
-                                       details=details, checklist=checklist)
+                                       details=details, checklist=checklist,
+                                       baseline=baseline)
             except psycopg.errors.UniqueViolation:
                 continue
         raise RegisterError(f"{self.location}: no free short id under prefix {prefix}")
 
     def insert_job(self, *, short_id, uuid, created_at, created_by, details, checklist,
                    imported: str = "", recorded: dict[str, Any] | None = None,
-                   assigned_to: str = "") -> Job:
+                   assigned_to: str = "", baseline: dict[str, Any] | None = None,
+                   record_sha256: str = "") -> Job:
         d = {k: details.get(k) or "" for k in DETAIL_FIELDS}
         cols = ("short_id, uuid, created_at, created_by, " + ", ".join(DETAIL_FIELDS)
                 + ", checklist_id, checklist_version, checklist_sha256, checklist_text,"
-                " checklist_source, imported, recorded, assigned_to")
+                " checklist_source, imported, recorded, assigned_to, baseline, record_sha256")
         with self._tx():
             row = self.conn.execute(
                 f"INSERT INTO jobs ({cols}) VALUES ("
-                + ",".join(["%s"] * (4 + len(DETAIL_FIELDS) + 8)) + ") RETURNING id",
+                + ",".join(["%s"] * (4 + len(DETAIL_FIELDS) + 10)) + ") RETURNING id",
                 (short_id, uuid, created_at, created_by, *(d[k] for k in DETAIL_FIELDS),
                  checklist.checklist.id, checklist.checklist.version, checklist.sha256,
                  checklist.text, checklist.name, imported,
                  json.dumps(recorded, ensure_ascii=False) if recorded else "",
-                 assigned_to or self.role())).fetchone()
+                 assigned_to or self.role(),
+                 json.dumps(baseline, ensure_ascii=False, sort_keys=True) if baseline else "",
+                 record_sha256)).fetchone()
         return self.job(row[0])
 
     def job(self, job_id: int) -> Job:
@@ -254,7 +259,9 @@ class PostgresRegister:
         return Job(r["id"], r["short_id"], r["uuid"], r["created_at"], r["created_by"], details,
                    r["checklist_id"], r["checklist_version"], r["checklist_sha256"],
                    r["checklist_text"], r["checklist_source"], original,
-                   r["imported"] or "", json.loads(r["recorded"]) if r["recorded"] else {})
+                   r["imported"] or "", json.loads(r["recorded"]) if r["recorded"] else {},
+                   json.loads(r["baseline"]) if r["baseline"] else {},
+                   r["record_sha256"] or "")
 
     def find_job(self, ref: str) -> Job:
         ref = ref.strip()
@@ -291,7 +298,8 @@ class PostgresRegister:
     def add_entry(self, job: Job, item_id: str, action: str, raw: str, value: Any = None,
                   unit_typed: str | None = None, instrument_id: int | None = None,
                   by: str | None = None, at: str | None = None, uuid: str | None = None,
-                  host: str | None = None, read_with: dict[str, Any] | None = None) -> Entry:
+                  host: str | None = None, read_with: dict[str, Any] | None = None,
+                  carried: str | None = None) -> Entry:
         device = self.device_id() if host is None else host
         with self._tx():
             # one round trip for both: the entry this one supersedes, the job's last time
@@ -304,12 +312,13 @@ class PostgresRegister:
                 at = later_than(last)
             row = self._x(
                 "INSERT INTO entries (uuid, job_id, item_id, action, raw, value_json,"
-                " unit_typed, instrument_id, at, by, supersedes, host, read_with)"
-                f" VALUES (%s,%s,%s,%s,%s,%s,%s,%s,%s,%s,%s,%s,%s) RETURNING {_ENTRY_COLS}",
+                " unit_typed, instrument_id, at, by, supersedes, host, read_with, carried)"
+                f" VALUES (%s,%s,%s,%s,%s,%s,%s,%s,%s,%s,%s,%s,%s,%s) RETURNING {_ENTRY_COLS}",
                 (uuid or str(uuidlib.uuid4()), job.id, item_id, action, raw,
                  json.dumps(value, ensure_ascii=False), unit_typed, instrument_id, at,
                  by or self.who(), prev, device,
-                 json.dumps(read_with, sort_keys=True) if read_with else None)).fetchone()
+                 json.dumps(read_with, sort_keys=True) if read_with else None,
+                 carried)).fetchone()
         return _entry(row)
 
     def _entries(self, job_id: int, where: str = "") -> list[Entry]:
@@ -595,4 +604,5 @@ def _entry(row: tuple) -> Entry:
     return Entry(row[0], row[1], row[2], row[3], row[4],
                  json.loads(row[5]) if row[5] is not None else None,
                  row[6], row[7], row[8], row[9], row[10], row[11],
-                 json.loads(row[12]) if row[12] else None)
+                 json.loads(row[12]) if row[12] else None,
+                 row[13] if len(row) > 13 else None)

@@ -46,11 +46,14 @@ class RegisterEngine(Protocol):
 
     # -- jobs ---------------------------------------------------------------------
     def create_job(self, checklist: Any, details: dict[str, str],
-                   by: str | None = None) -> Job: ...
+                   by: str | None = None, baseline: dict[str, Any] | None = None) -> Job:
+        """A new job; ``baseline`` makes it a revisit compared with that baseline."""
 
     def insert_job(self, *, short_id: str, uuid: str, created_at: str, created_by: str,
                    details: dict[str, str], checklist: Any, imported: str = "",
-                   recorded: dict[str, Any] | None = None) -> Job: ...
+                   recorded: dict[str, Any] | None = None,
+                   baseline: dict[str, Any] | None = None,
+                   record_sha256: str = "") -> Job: ...
 
     def job(self, job_id: int) -> Job: ...
 
@@ -69,7 +72,8 @@ class RegisterEngine(Protocol):
                   unit_typed: str | None = None, instrument_id: int | None = None,
                   by: str | None = None, at: str | None = None, uuid: str | None = None,
                   host: str | None = None,
-                  read_with: dict[str, Any] | None = None) -> Entry:
+                  read_with: dict[str, Any] | None = None,
+                  carried: str | None = None) -> Entry:
         """Append one entry and commit it (unless inside ``batch``) before returning."""
 
     def entries(self, job: Job) -> list[Entry]:

@@ -6,7 +6,7 @@ release is migrated on first use; a newer one is refused rather than damaged.
 
 from __future__ import annotations
 
-SCHEMA_VERSION = 9
+SCHEMA_VERSION = 10
 
 # Step n brings a register from version n-1 to n. Never edit a released step:
 # add the next one.
@@ -213,5 +213,17 @@ MIGRATIONS: dict[int, str] = {
         derived_at TEXT NOT NULL
     );
     CREATE INDEX job_status_status ON job_status (status);
+    """,
+    # 10: periodic inspection (issue 14). `jobs.baseline` holds, for a revisit job, the
+    # baseline it is compared with as JSON (the baseline record's SHA-256 over its canonical
+    # JSON, its job, status, whether it verified, and the readings of every earlier visit);
+    # '' for other jobs. `jobs.record_sha256` is the SHA-256 of the record an imported job
+    # came from, so a later revisit can name it ('' otherwise). `entries.carried` is the
+    # baseline record's SHA-256 on an answer carried from it as a starting answer (NULL on
+    # everything typed or imported).
+    10: """
+    ALTER TABLE jobs ADD COLUMN baseline TEXT NOT NULL DEFAULT '';
+    ALTER TABLE jobs ADD COLUMN record_sha256 TEXT NOT NULL DEFAULT '';
+    ALTER TABLE entries ADD COLUMN carried TEXT;
     """,
 }

@@ -39,6 +39,8 @@ DETAIL_FIELDS = (
 )
 CONFLICT_FIELDS = ("job_uuid", "item_id", "entry_uuids", "flagged_at", "confirmed_by",
                    "confirmed_at")
+_ENTRY_COLUMNS = ("id, uuid, item_id, action, raw, value_json, unit_typed, instrument_id, at, by,"
+                  " supersedes, host, read_with, carried")
 # Short job ids: unambiguous letters and digits (no 0/O, 1/I/L, U), typed on site.
 _ALPHABET = "23456789ABCDEFGHJKMNPQRSTVWXYZ"
 
@@ -116,6 +118,9 @@ class Job:
     imported: str = ""  # '' made here; 'verified' or 'unverified' when imported from a record
     # an imported job: the record's own verdicts {"check_logic", "program", "verdicts"}
     recorded: dict[str, Any] = field(default_factory=dict)
+    # a revisit job: the baseline it is compared with (see commission.baseline); {} otherwise
+    baseline: dict[str, Any] = field(default_factory=dict)
+    record_sha256: str = ""  # an imported job: the SHA-256 of the record it came from
 
     @property
     def unverified(self) -> bool:
@@ -153,6 +158,7 @@ class Entry:
     host: str = ""  # the device id of the register it was typed into ('' or a host name
     #                 in entries made before schema 7)
     read_with: dict[str, Any] | None = None  # export profile a file was read with
+    carried: str | None = None  # baseline record's SHA-256 when carried from it (a revisit)
 
 
 @dataclass(frozen=True)
@@ -336,8 +342,10 @@ class Register:
             raise _cannot_write(self.path, exc) from None
 
     # -- jobs ----------------------------------------------------------------
-    def create_job(self, checklist, details: dict[str, str], by: str | None = None) -> Job:
-        """``checklist`` is a :class:`commission.checklist.Loaded`."""
+    def create_job(self, checklist, details: dict[str, str], by: str | None = None,
+                   baseline: dict[str, Any] | None = None) -> Job:
+        """``checklist`` is a :class:`commission.checklist.Loaded`; ``baseline`` makes it a
+        revisit job compared with that baseline (commission.baseline)."""
         # After this device joined a company register, its ids start with the device's
         # prefix (unique in the company): 6 characters, never equal to another device's.
         prefix = self.setting("short_id_prefix") or ""
@@ -352,22 +360,26 @@ class Register:
             created_by=by or who(),
             details=details,
             checklist=checklist,
+            baseline=baseline,
         )
 
     def insert_job(self, *, short_id, uuid, created_at, created_by, details, checklist,
-                   imported: str = "", recorded: dict[str, Any] | None = None) -> Job:
+                   imported: str = "", recorded: dict[str, Any] | None = None,
+                   baseline: dict[str, Any] | None = None, record_sha256: str = "") -> Job:
         d = {k: details.get(k) or "" for k in DETAIL_FIELDS}
         with self._transaction():
             cur = self._write(
                 "INSERT INTO jobs (short_id, uuid, created_at, created_by, "
                 + ", ".join(DETAIL_FIELDS) + ", checklist_id,"
                 " checklist_version, checklist_sha256, checklist_text, checklist_source,"
-                " imported, recorded) VALUES ("
-                + ",".join("?" * (4 + len(DETAIL_FIELDS) + 7)) + ")",
+                " imported, recorded, baseline, record_sha256) VALUES ("
+                + ",".join("?" * (4 + len(DETAIL_FIELDS) + 9)) + ")",
                 (short_id, uuid, created_at, created_by, *(d[k] for k in DETAIL_FIELDS),
                  checklist.checklist.id, checklist.checklist.version, checklist.sha256,
                  checklist.text, checklist.name, imported,
-                 json.dumps(recorded, ensure_ascii=False) if recorded else ""),
+                 json.dumps(recorded, ensure_ascii=False) if recorded else "",
+                 json.dumps(baseline, ensure_ascii=False, sort_keys=True) if baseline else "",
+                 record_sha256),
             )
         return self.job(cur.lastrowid)
 
@@ -386,7 +398,9 @@ class Register:
                    r["checklist_id"], r["checklist_version"], r["checklist_sha256"],
                    r["checklist_text"], r["checklist_source"], original,
                    r.get("imported") or "",
-                   json.loads(r["recorded"]) if r.get("recorded") else {})
+                   json.loads(r["recorded"]) if r.get("recorded") else {},
+                   json.loads(r["baseline"]) if r.get("baseline") else {},
+                   r.get("record_sha256") or "")
 
     def find_job(self, ref: str) -> Job:
         ref = ref.strip()
@@ -441,6 +455,7 @@ class Register:
         uuid: str | None = None,
         host: str | None = None,
         read_with: dict[str, Any] | None = None,
+        carried: str | None = None,
     ) -> Entry:
         """Append one entry and commit it before returning."""
         device = self.device_id() if host is None else host
@@ -455,26 +470,25 @@ class Register:
                 at = later_than(last)
             cur = self._write(
                 "INSERT INTO entries (uuid, job_id, item_id, action, raw, value_json, unit_typed,"
-                " instrument_id, at, by, supersedes, host, read_with)"
-                " VALUES (?,?,?,?,?,?,?,?,?,?,?,?,?)",
+                " instrument_id, at, by, supersedes, host, read_with, carried)"
+                " VALUES (?,?,?,?,?,?,?,?,?,?,?,?,?,?)",
                 (uuid or str(uuidlib.uuid4()), job.id, item_id, action, raw,
                  json.dumps(value, ensure_ascii=False), unit_typed, instrument_id,
                  at, by or who(), prev[0] if prev else None,
                  device,
-                 json.dumps(read_with, sort_keys=True) if read_with else None),
+                 json.dumps(read_with, sort_keys=True) if read_with else None,
+                 carried),
             )
         return self._entry_by_id(cur.lastrowid)
 
     def _entry_by_id(self, entry_id: int) -> Entry:
         row = self.db.execute(
-            "SELECT id, uuid, item_id, action, raw, value_json, unit_typed, instrument_id, at, by,"
-            " supersedes, host, read_with FROM entries WHERE id = ?", (entry_id,)).fetchone()
+            f"SELECT {_ENTRY_COLUMNS} FROM entries WHERE id = ?", (entry_id,)).fetchone()
         return _entry(row)
 
     def _entries(self, job_id: int, where: str = "") -> list[Entry]:
         rows = self.db.execute(
-            "SELECT id, uuid, item_id, action, raw, value_json, unit_typed, instrument_id, at, by,"
-            f" supersedes, host, read_with FROM entries WHERE job_id = ? {where}"
+            f"SELECT {_ENTRY_COLUMNS} FROM entries WHERE job_id = ? {where}"
             " ORDER BY at, uuid",
             (job_id,))
         return [_entry(r) for r in rows]
@@ -832,7 +846,8 @@ def _entry(row: tuple) -> Entry:
     return Entry(row[0], row[1], row[2], row[3], row[4],
                  json.loads(row[5]) if row[5] is not None else None,
                  row[6], row[7], row[8], row[9], row[10], row[11],
-                 json.loads(row[12]) if len(row) > 12 and row[12] else None)
+                 json.loads(row[12]) if len(row) > 12 and row[12] else None,
+                 row[13] if len(row) > 13 else None)
 
 
 def _statements(script: str) -> list[str]:

@@ -23,7 +23,7 @@ _IMPORTED_BY = "record"  # format 2 names no operating-system user: entries say 
 
 
 def restore(register: str | Path | None, record: AnyRecord, files: dict[str, bytes],
-            imported: str = "verified") -> tuple[str, int]:
+            imported: str = "verified", record_sha256: str = "") -> tuple[str, int]:
     """Insert the job, its entries (same ids and times), instruments and files.
     Returns (short id, number of files restored)."""
     from ..register import SQLiteRegister, make_register
@@ -46,7 +46,7 @@ def restore(register: str | Path | None, record: AnyRecord, files: dict[str, byt
     try:
         reg.open()
         with reg:
-            restored = _write(reg, record, files, loaded, imported, v1)
+            restored = _write(reg, record, files, loaded, imported, v1, record_sha256)
     except BaseException:
         if not existed:
             reg.close()
@@ -58,8 +58,7 @@ def restore(register: str | Path | None, record: AnyRecord, files: dict[str, byt
 
 
 def _write(reg: RegisterEngine, record: AnyRecord, files: dict[str, bytes], loaded: Loaded,
-           imported: str,
-           v1: bool) -> int:
+           imported: str, v1: bool, record_sha256: str = "") -> int:
     job_data = record.job
     if reg.has_job(uuid=job_data.uuid):
         raise UserError(f"job {job_data.id} ({job_data.uuid}) is already in "
@@ -88,7 +87,13 @@ def _write(reg: RegisterEngine, record: AnyRecord, files: dict[str, bytes], load
                              recorded={"check_logic": record.check_logic,
                                        "program": record.tool.version,
                                        "verdicts": {v.id: v.verdict
-                                                    for v in record.verdicts}})
+                                                    for v in record.verdicts},
+                                       **_as_baseline(record, record_sha256,
+                                                      "unverified" if job_data.unverified
+                                                      else imported)},
+                             baseline=(record.baseline.model_dump(mode="json")
+                                       if getattr(record, "baseline", None) else None),
+                             record_sha256=record_sha256)
         for meta in record.files:
             sha = meta.sha256
             blob = files.get(sha)
@@ -108,8 +113,22 @@ def _write(reg: RegisterEngine, record: AnyRecord, files: dict[str, bytes], load
             reg.add_entry(job, e.item, e.action, e.raw, e.value, e.unit_typed,
                           serials.get(e.instrument or ""), by=by, at=e.at, uuid=e.uuid,
                           host=host,
-                          read_with=getattr(e, "read_with", None))
+                          read_with=getattr(e, "read_with", None),
+                          carried=getattr(e, "carried", None))
     return restored
+
+
+def _as_baseline(record: AnyRecord, record_sha256: str, imported: str) -> dict:
+    """What a later `commission revisit JOB` compares with (format 2 records only)."""
+    if v1_record(record) or not record_sha256:
+        return {}
+    from ..baseline import baseline_of
+
+    return {"as_baseline": baseline_of(record, record_sha256, imported == "verified")}
+
+
+def v1_record(record: AnyRecord) -> bool:
+    return isinstance(record, RecordV1)
 
 
 __all__ = ["restore"]
