@@ -95,6 +95,8 @@ INPUTS = [
     ("seal", ["seal", "--tsa", "http://127.0.0.1:9/", "--out", "{OUT}", "--", "{F}"], "pdf"),
     ("verify-trust", ["verify", "{PDF}", "--trust", "{F}"], "cert"),
     ("import", ["import", "--register", "{NEWREG}", "--", "{F}"], "pdf"),
+    ("revisit", ["revisit", "--checklist", "diverter-1ph-periodic", "--register", "{NEWREG}",
+                 "--", "{F}"], "pdf"),
     ("blank", ["blank", "--out", "{OUT}", "--", "{F}"], "checklist"),
     ("checklists-validate", ["checklists", "validate", "--", "{F}"], "checklist"),
     ("checklists-show", ["checklists", "show", "--", "{F}"], "checklist"),
@@ -136,6 +138,7 @@ OUTPUTS = [
 # Commands that take an id or a text: (id, argv with {T} for the text).
 TEXTS = [
     ("show", ["show", "--", "{T}"]),
+    ("revisit-job", ["revisit", "--checklist", "diverter-1ph-periodic", "--", "{T}"]),
     ("amend", ["amend", "--client", "C", "--", "{T}"]),
     ("walk", ["walk", "--", "{T}"]),
     ("report", ["report", "--out", "{OUT}", "--", "{T}"]),

@@ -47,7 +47,11 @@ def revisit(
                             f"(accepted: {', '.join(PARAMS)})")
     path = Path(baseline)
     problem = None
-    if path.suffix.lower() == ".pdf" or path.is_file():
+    try:
+        a_file = path.suffix.lower() == ".pdf" or path.is_file()
+    except OSError:  # e.g. a name too long for a file: then it is a job id
+        a_file = False
+    if a_file:
         from ..record import RECORD_NAME, record_hash
         from ..report.signatures import open_pdf
         from ..report.verify import attachments
