@@ -58,6 +58,7 @@ def item_json(r: Result, instruments: dict[int, Instrument],
         "instrument": inst.serial if inst else None,
         "time": e.at if e else None,
         "carried_from_baseline": bool(e is not None and getattr(e, "carried", None)),
+        "change": r.change.as_json() if r.change is not None else None,
         "history": [_entry_json(h, instruments, uuids or {}) for h in r.history],
     }
 

@@ -48,6 +48,7 @@ class Result:
     applicable: bool = True
     section_title: str = ""
     analysis: Any = None  # the analysis of the item's file, when a check analysed one
+    change: Any = None  # a revisit: the change since the baseline (checks.change.Change)
 
     @property
     def answered(self) -> bool:
@@ -100,6 +101,7 @@ def evaluate(
     for _, item in pairs:
         applicable[item.id] = _applies(item, current, applicable, by_id)
 
+    since = _Since(checklist, current, baseline) if baseline else None
     results: list[Result] = []
     for section, item in pairs:
         entry = current.get(item.id)
@@ -138,10 +140,63 @@ def evaluate(
                 reason = f"{note}; {reason}"
             else:
                 reason = f"{reason}; {note}"
+        change = since.judge(item, outcome, entry, history.get(item.id, [])) \
+            if since is not None else None
+        if change is not None:
+            if change.verdict == REVIEW and verdict != FAIL:
+                verdict = REVIEW
+            reason = f"{reason}; since the baseline: {change.reason}"
         results.append(Result(**base, verdict=verdict, reason=reason, source=outcome.source,
                               measured=outcome.measured, expected=outcome.expected,
-                              analysis=outcome.analysis))
+                              analysis=outcome.analysis, change=change))
     return results
+
+
+class _Since:
+    """A revisit's comparisons with its baseline (commission.checks.change)."""
+
+    def __init__(self, checklist: Checklist, current: dict[str, Entry],
+                 baseline: dict[str, Any]):
+        from . import change
+
+        self.mod = change
+        self.params = change.params_of(checklist)
+        self.visits = baseline.get("visits") or []
+        last = self.visits[-1] if self.visits else {}
+        self.readings = last.get("readings") or {}
+        now_t = None
+        rv = checklist.revisit
+        if rv is not None and rv.temperature:
+            e = current.get(rv.temperature)
+            if e is not None and e.action == "answer" and isinstance(e.value, int | float) \
+                    and not isinstance(e.value, bool):
+                now_t = float(e.value)
+        self.temperatures = (now_t, last.get("temperature_c"))
+
+    def judge(self, item: Item, outcome: Outcome, entry: Entry, history: list[Entry]):
+        carried = next((h for h in history if getattr(h, "carried", None)), None)
+        if carried is not None:
+            return self.mod.judge_carried(item.id, carried, entry)
+        if item.check is None or item.check.name not in self.mod.RULES:
+            return None
+        base = self.readings.get(item.id)
+        m = outcome.measured
+        if base is None or m is None or m.bound is not None or m.unit != base.get("unit") \
+                or isinstance(m.value, bool) or not isinstance(m.value, int | float):
+            return None
+        rule = self.mod.RULES[item.check.name]
+        change = self.mod.judge_reading(item.id, rule, self.params, float(m.value), m.unit,
+                                        entry.at, base, self.temperatures)
+        points = [(r["at"], float(r["value"])) for v in self.visits
+                  if (r := (v.get("readings") or {}).get(item.id)) and r.get("unit") == m.unit]
+        change.trend = self.mod.trend_of(rule, [*points, (entry.at, float(m.value))],
+                                         outcome.expected)
+        if change.trend is not None:
+            t = change.trend
+            when = (f"would reach the limit {t['limit']:g} {m.unit} about {t['crossing']}"
+                    if t["crossing"] else "not heading for its limit at the observed rate")
+            change.reason += f"; trend over {len(t['points'])} visits: {when} ({t['basis']})"
+        return change
 
 
 def _applies(item: Item, current: dict[str, Entry], applicable: dict[str, bool],
@@ -284,6 +339,12 @@ def status_reasons(results: list[Result]) -> list[str]:
     for r in results:
         if r.item.critical and r.verdict == REVIEW:
             out.append(f"{r.item.id}: needs review — {r.reason}")
+    # a revisit: every deterioration since the baseline, worst first (critical ones that
+    # need review are listed above with the same words)
+    changed = [r for r in results if r.change is not None and r.change.verdict == REVIEW
+               and not (r.item.critical and r.verdict in (REVIEW, FAIL))]
+    for r in sorted(changed, key=lambda r: -r.change.weight):
+        out.append(f"{r.item.id}: changed since the baseline — {r.change.reason}")
     return out
 
 

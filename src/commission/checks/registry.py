@@ -28,7 +28,10 @@ RECORDED = "recorded"
 # 3 = recorded files judged through one analysis per kind: clamp verdict from the capture
 #     state and the angle residual, soak with one or two time constants, heating fitted
 #     on the first rising run; findings (clipping, gaps ...) turn pass into review.
-CHECK_LOGIC_VERSION = 3
+# 4 = a revisit (issue 14): each repeated reading is also judged against its baseline
+#     (checks/change.py) and a changed carried answer is reviewed; without a baseline
+#     every verdict is as in 3.
+CHECK_LOGIC_VERSION = 4
 _SEVERITY = {PASS: 0, REVIEW: 1, FAIL: 2}
 
 
