@@ -10,7 +10,6 @@ from __future__ import annotations
 import json
 
 import pytest
-
 from tests.revisit.answers import periodic_answers, soak_scaled
 from tests.revisit.conftest import canonical_sha256, detach_record
 
