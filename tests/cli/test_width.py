@@ -104,6 +104,8 @@ def commands(world) -> list[tuple[str, list[str]]]:
                      "--register", str(base / "revisit.sqlite3")]),
         ("revisit", ["revisit", str(record), "--checklist", "diverter-1ph-periodic",
                      "--register", str(base / "revisit.sqlite3")]),  # refused: not trusted
+        ("due", ["due", "--within", "800d", "--ics", str(base / "due.ics")]),
+        ("due", ["due", "--within", "soon"]),  # refused: not a window
         ("blank", ["blank", "diverter-1ph", "--out", str(base / "blank.pdf")]),
         ("checklists validate", ["checklists", "validate", "diverter-1ph"]),
         ("checklists validate", ["checklists", "validate", str(broken)]),

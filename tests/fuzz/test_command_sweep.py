@@ -133,11 +133,13 @@ OUTPUTS = [
     ("identity-export", ["identity", "export", "--out", "{F}"]),
     ("identity-backup", ["identity", "backup", "--out", "{F}", "--passphrase-file", "{PF}"]),
     ("demo", ["demo", "--out", "{F}"]),
+    ("due-ics", ["due", "--within", "3000d", "--ics", "{F}"]),
 ]
 
 # Commands that take an id or a text: (id, argv with {T} for the text).
 TEXTS = [
     ("show", ["show", "--", "{T}"]),
+    ("due-within", ["due", "--within", "{T}"]),
     ("revisit-job", ["revisit", "--checklist", "diverter-1ph-periodic", "--", "{T}"]),
     ("amend", ["amend", "--client", "C", "--", "{T}"]),
     ("walk", ["walk", "--", "{T}"]),

@@ -10,6 +10,7 @@ from . import (
     analyse,
     checklists,
     demo,
+    due,
     forms,
     identity,
     instruments,
@@ -55,6 +56,7 @@ app.command("sync")(friendly(sync_cmd.sync))
 app.command("confirm")(friendly(sync_cmd.confirm))
 app.command("assign")(friendly(sync_cmd.assign))
 app.command("revisit")(friendly(revisit.revisit))
+app.command("due")(friendly(due.due))
 
 
 def _plain(value: bool) -> bool:

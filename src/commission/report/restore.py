@@ -88,6 +88,9 @@ def _write(reg: RegisterEngine, record: AnyRecord, files: dict[str, bytes], load
                                        "program": record.tool.version,
                                        "verdicts": {v.id: v.verdict
                                                     for v in record.verdicts},
+                                       "next_inspection": (
+                                           record.next_inspection.date
+                                           if record.next_inspection is not None else None),
                                        **_as_baseline(record, record_sha256,
                                                       "unverified" if job_data.unverified
                                                       else imported)},
