@@ -78,8 +78,9 @@ def baseline_of(record: AnyRecord, record_sha256: str, verified: bool) -> dict[s
                         "needs a record of format 2 or later: import it and make its record "
                         "again")
     earlier = []
-    if record.baseline is not None:  # a revisit of a revisit: keep every earlier visit
-        earlier = [v.model_dump(mode="json") for v in record.baseline.visits]
+    before = getattr(record, "baseline", None)  # format 3 on
+    if before is not None:  # a revisit of a revisit: keep every earlier visit
+        earlier = [v.model_dump(mode="json") for v in before.visits]
     visit = visit_of(record, record_sha256)
     return {"record_sha256": record_sha256, "job": record.job.id, "uuid": record.job.uuid,
             "site": record.job.site, "made_at": visit["made_at"], "status": record.status,

@@ -127,6 +127,9 @@ class ItemReport(Strict):
     limitations: bool = Field(
         default=False, description="a text item listing the limitations of the inspection "
         "(printed with the findings on page 1)")
+    actions: bool = Field(
+        default=False, description="a text item saying what was done on this visit (printed "
+        "on page 1 of a periodic record)")
     chart: bool = Field(
         default=False, description="draw this item's check as a chart (where the check has one "
         "and its data exists)")
@@ -261,6 +264,8 @@ class Item(Strict):
             raise ValueError("'options' and 'aliases' belong to choice items only")
         if self.report.limitations and self.kind != "text":
             raise ValueError("'report: {limitations: true}' belongs to a text item")
+        if self.report.actions and self.kind != "text":
+            raise ValueError("'report: {actions: true}' belongs to a text item")
         return self
 
 

@@ -41,6 +41,8 @@ RELEASED: dict[str, dict[str, tuple[str, ...]]] = {
     # The periodic inspection (issue 14), resolved against diverter-1ph 1.6.0.
     "diverter-1ph-periodic": {
         "1.0.0": ("39e2e885fa721562656d62cf3148ccc873bd48229c092c8ff6eaac3928509fb9",),
+        # 1.1.0: "what was done" marked for page 1 of the periodic record
+        "1.1.0": ("e7ebe2fb972e50d9e68a94a742f3677e64b565cf8dbcecb28a2eef2266c79eda",),
     },
 }
 

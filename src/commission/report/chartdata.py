@@ -281,3 +281,43 @@ def _metering(data: ChartInput) -> Drawn | None:
                "guide). Result: " + data.result.reason)
     return (charts.metering(points, limit, "Diverter metering against the reference"),
             caption)
+
+
+def trend_flowables(c) -> list[Any]:
+    """A revisit over three or more visits: each repeated reading's trend against its
+    limit (commission.checks.change.trend_of computed it; nothing is fitted here)."""
+    from reportlab.platypus import KeepTogether, Paragraph, Spacer
+
+    from ..checks.change import years_between
+
+    out: list[Any] = []
+    for result in c.results:
+        change = getattr(result, "change", None)
+        t = change.trend if change is not None else None
+        if not t:
+            continue
+        origin = t["origin"]
+        points = [(years_between(origin, at), v) for at, v in t["points"]]
+        log = t["scale"] == "log"
+        crossing = None
+        if t["crossing"]:
+            crossing = years_between(origin, f"{t['crossing']}T00:00:00Z")
+        unit = change.unit or ""
+        drawing = charts.trend(points, (t["intercept"], t["slope_per_year"]), t["limit"],
+                               crossing, log, unit, f"{change.what} over {len(points)} visits")
+        if t["crossing"]:
+            when = f"at this rate it would reach its limit {t['limit']:g} {unit} about " \
+                   f"{t['crossing']}"
+        else:
+            when = "at this rate it is not heading for its limit"
+        rate = (f"{math.exp(t['slope_per_year']):.3g} times a year" if log
+                else f"{t['slope_per_year']:+.3g} {unit} a year")
+        caption = (f"Readings of the first visit ({origin[:10]}) onwards; trend {rate}; "
+                   f"{when}. Projection: {t['basis']} (insulation falls by a factor a year, "
+                   "other readings by an amount a year). A projection, not a prediction: "
+                   "the next visit tells.")
+        out.append(KeepTogether([
+            Paragraph(f"Trend: {result.item.prompt} <font size=8 color='#55606b'>"
+                      f"({result.item.id})</font>", c.st["h2k"]),
+            drawing, Paragraph(caption, c.st["small"]), Spacer(1, 8)]))
+    return out

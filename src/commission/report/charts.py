@@ -314,3 +314,55 @@ def phasor_diagram(voltages: Sequence[tuple[str, float, float, bool]],
     _label(d, tx, y0 + 14, "blue: voltages (dashed: inferred)", colour=BLUE)
     _label(d, tx, y0 + 2, "orange: clamp currents", colour=ORANGE)
     return d
+
+
+def trend(points: Sequence[tuple[float, float]], fit: tuple[float, float],
+          limit: float | None, crossing_years: float | None, log: bool, unit: str,
+          title: str) -> Drawing:
+    """One repeated reading over the visits: each visit's reading (years from the first
+    visit), the least-squares line (in the reading, or in its logarithm when ``log``:
+    then the axis is logarithmic) drawn on to where it crosses the limit, the limit dashed.
+    ``fit``: (intercept, slope per year) in the plotted quantity (ln of it when ``log``)."""
+    d = _drawing(WIDTH, HEIGHT + 40)
+    lp = _plot(50, 35, WIDTH - 165, HEIGHT - 35)
+
+    def y_of(v: float) -> float:
+        return math.log10(v) if log else v
+
+    a, b = fit
+    last = max(x for x, _ in points)
+    end = crossing_years if crossing_years is not None and crossing_years > last else last
+    end = min(end, last + 30)  # a crossing decades away is shown as heading off the plot
+    line_x = [0.0, end]
+    line = [(x, (math.exp(a + b * x) if log else a + b * x)) for x in line_x]
+    pts = [(float(x), y_of(float(v))) for x, v in points]
+    fitted = [(x, y_of(v)) for x, v in line if v > 0 or not log]
+    lp.data = [pts, fitted]
+    ys = [y for _, y in pts] + [y for _, y in fitted]
+    if limit is not None and (limit > 0 or not log):
+        ys.append(y_of(limit))
+    _ranges(lp, [x for x, _ in pts] + line_x, ys)
+    lp.lines[0].symbol = makeMarker("Circle", size=3.5, fillColor=ORANGE, strokeColor=ORANGE)
+    lp.lines[0].strokeWidth = 0.01
+    lp.lines[0].strokeColor = None
+    lp.lines[1].strokeColor = BLUE
+    lp.lines[1].strokeWidth = 0.8
+    lp.lines[1].strokeDashArray = [3, 2]
+    if log:
+        lp.yValueAxis.labelTextFormat = lambda v: f"{10 ** v:.3g}"
+    d.add(lp)
+    _frame(d, lp.x, lp.y, lp.width, lp.height)
+    ymin, ymax = lp.yValueAxis.valueMin, lp.yValueAxis.valueMax
+    if limit is not None and (limit > 0 or not log):
+        yy = lp.y + (y_of(limit) - ymin) / (ymax - ymin) * lp.height
+        d.add(Line(lp.x, yy, lp.x + lp.width, yy, strokeColor=RED, strokeWidth=0.8,
+                   strokeDashArray=[3, 2]))
+        _label(d, lp.x + lp.width + 4, yy - 3, f"limit {limit:g} {unit}", colour=RED)
+    # the legend in a row above the plot, clear of the limit's label at the right
+    _label(d, lp.x + lp.width, HEIGHT + 12, "- - fitted trend", anchor="end", colour=BLUE)
+    _label(d, lp.x + lp.width - 90, HEIGHT + 12, "• reading at each visit", anchor="end",
+           colour=ORANGE)
+    _label(d, 2, HEIGHT + 28, title)
+    _label(d, 2, HEIGHT + 12, f"{unit}{', logarithmic axis' if log else ''}")
+    _label(d, lp.x + lp.width / 2, 10, "years since the first visit", anchor="middle")
+    return d

@@ -205,6 +205,9 @@ def _status(c: _Context) -> list:
                       "not verify (signature, integrity or content); its entries are not "
                       "vouched for by a trusted signature.", c.st["base"]))
 
+    if job.baseline:
+        out += _periodic(c, status)
+
     out.append(_p("Findings, by weight", c.st["h2"]))
     if not found:
         out.append(_p("No failures, reviews, skipped items, departures or limitations.",
@@ -225,8 +228,11 @@ def _status(c: _Context) -> list:
     reg = f" (registration {d['installer_registration']})" if d.get(
         "installer_registration") else ""
     out.append(_p("Declaration", c.st["h2"]))
+    did = ("inspected the installation at {site}, compared every repeated reading with the "
+           "baseline record named above and" if job.baseline else
+           "commissioned the installation at {site} and").format(site=d.get('site', ''))
     out.append(_p(
-        f"I, {installer}{reg}, commissioned the installation at {d.get('site', '')} and "
+        f"I, {installer}{reg}, {did} "
         f"recorded every reading and answer in this record, following checklist "
         f"{checklist.id} {checklist.version} ({checklist.title}) under {checklist.rules.name}. "
         "The verdicts are derived from those readings by the rules and sources printed "
@@ -245,6 +251,64 @@ def _status(c: _Context) -> list:
 
     out.append(_p("Signed by", c.st["h2"]))
     out += _signer_block(c)
+    return out
+
+
+def _periodic(c: _Context, status: str) -> list:
+    """Page 1 of a periodic record: the baseline it was compared with (named and
+    fingerprinted by its record's SHA-256), the overall condition, every deterioration
+    by weight, and what was done."""
+    from reportlab.platypus import Paragraph
+
+    b = c.state.job.baseline
+    out = [_p("Periodic inspection against the baseline", c.st["h2"])]
+    state = ("verified when this inspection started" if b["verified"] else
+             "UNVERIFIED: it did not verify when this inspection started, so the comparison "
+             "rests on a record nobody vouches for")
+    out.append(_p(f"Compared with the record of job {b['job']} made {b['made_at'][:10]} "
+                  f"(status {b['status']}; {state}). A reviewer finds that record's SHA-256 "
+                  "(over its canonical JSON) with 'commission verify' and compares it with:",
+                  c.st["base"]))
+    out.append(_p(f"Baseline record SHA-256: {b['record_sha256']}", c.st["cellb"]))
+    judged = [r for r in c.results if r.change is not None]
+    worse = sorted((r for r in judged if r.change.verdict == "review"),
+                   key=lambda r: -r.change.weight)
+    if status == "not-ready":
+        condition = ("unsatisfactory: a critical item fails (see the findings below)"
+                     + (f"; {len(worse)} change(s) since the baseline" if worse else ""))
+    elif worse:
+        condition = (f"deteriorated: {len(worse)} change(s) since the baseline need review, "
+                     "listed below by weight")
+    else:
+        condition = ("satisfactory: no reading has deteriorated beyond its limit of change "
+                     "since the baseline")
+    if status == "incomplete":
+        condition += " (this inspection is not complete: see the findings below)"
+    out.append(_p(f"Overall condition: {condition}.", c.st["cellb"]))
+    if worse:
+        rows = [[_p(h, c.st["cellb"]) for h in ("Change", "Baseline", "Now", "A year",
+                                                   "Judged")]]
+        for r in worse:
+            ch = r.change
+            unit = f" {ch.unit}" if ch.unit else ""
+            base = (f"{ch.baseline_value:.4g}{unit}" if isinstance(ch.baseline_value, float)
+                    else str(ch.baseline_value))
+            now = (f"{ch.value:.4g}{unit}" if isinstance(ch.value, float) else str(ch.value))
+            rate = (f"{ch.rate_per_year:+.3g}{unit}" if ch.rate_per_year is not None
+                    else "under a day apart")
+            rows.append([Paragraph(f"{escape(ch.what)}<br/>{_muted(r.item.id)}", c.st["cell"]),
+                         _p(f"{base}, {ch.baseline_at[:10]}", c.st["cell"]),
+                         _p(now, c.st["cell"]), _p(rate, c.st["cell"]),
+                         _p(ch.reason, c.st["cell"])])
+        out.append(_table(rows, [86, 74, 52, 52, 216]))
+    fine = [r.change.what if r.change.unit else r.item.id for r in judged
+            if r.change.verdict != "review"]
+    if fine:
+        out.append(_p("Unchanged within the limits of change: " + ", ".join(fine) + ".",
+                      c.st["small"]))
+    done = next((c.answer(r) for r in c.results
+                 if r.item.report.actions and r.answered), None)
+    out.append(_p(f"What was done: {done or 'not recorded'}", c.st["base"]))
     return out
 
 
@@ -611,9 +675,9 @@ def _signatures(c: _Context) -> list:
 def _charts(c: _Context) -> list:
     from reportlab.platypus import KeepTogether
 
-    from .chartdata import chart_flowables
+    from .chartdata import chart_flowables, trend_flowables
 
-    flow = chart_flowables(c)
+    flow = chart_flowables(c) + trend_flowables(c)
     if not flow:
         return []
     # the heading travels with the first chart: never left alone at the foot of a page
@@ -654,6 +718,8 @@ def render(state: JobState, results: list[Result],
     c = _Context(state, results, record_sha, form, generated_at, st, signer, extract_of)
     job = state.job
     title = form.get("title", "Commissioning record")
+    if job.baseline:  # a revisit: the same layout, named for what it is
+        title = f"{title}: periodic inspection"
     page_of = "page {n} of {total}"
     if extract_of:
         from ..i18n import translator
