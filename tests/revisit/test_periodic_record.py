@@ -32,10 +32,18 @@ def test_page_one_names_the_baseline_and_lists_the_deteriorations(cli, baseline,
     made = cli("revisit", pdf, "--checklist", "diverter-1ph-periodic", "--trust", cert)
     job = made.stdout.strip().splitlines()[-1]
     sha = json.loads(cli("show", job, "--json").stdout)["baseline"]["record_sha256"]
-    soak = soak_scaled(tmp_path, 24.0, 1.0)
+    payload = json.loads(detach_record(pdf, tmp_path))
+    verdicts = {v["id"]: v for v in payload["verdicts"]}
+    latest = {e["item"]: e for e in payload["entries"] if e["action"] != "detail"}
+    start, end = float(latest["water.heat.start"]["value"]), float(latest["water.heat.end"][
+        "value"])
+    rise = (verdicts["heatsink.soak_log"]["measured"]["value"] - 38.0) / 1.2
+    soak = soak_scaled(tmp_path, 24.0, (rise + 9 / 1.2) / rise)
     answers = periodic_answers(tmp_path, {
         "insulation.resistance": "4 MΩ", "protection.rcd.t1": "190 ms",
-        "heatsink.soak_log": {"file": str(soak)},
+        "earth.zs": f"{verdicts['earth.zs']['measured']['value'] * 1.4:.4f} Ω",
+        "water.heat.end": f"{start + 0.8 * (end - start):.3f} °C",
+        "heatsink.soak_log": {"file": str(soak)}, "install.diverter.firmware": "2.6.0",
         "done.actions": "Cleaned the heatsink fins; RCD to be replaced"})
     assert cli("walk", job, "--answers", answers).exit_code == 0
     out = tmp_path / "periodic.pdf"
@@ -43,7 +51,16 @@ def test_page_one_names_the_baseline_and_lists_the_deteriorations(cli, baseline,
     assert made.exit_code == 0, made.output
     page1 = _text(out, 1, 1)
     assert f"Baseline record SHA-256: {sha}" in page1
-    assert "Overall condition: deteriorated: 2 change(s)" in page1
+    # the soak's predicted maximum, 9 K up, is past its 85 °C limit: a critical fail
+    assert "Overall condition: unsatisfactory: a critical item fails" in page1
+    assert "6 change(s) since the baseline" in page1
+    for words in ("RCD trip time has risen", "insulation resistance has fallen",
+                  "Zs has risen", "heating rate has fallen",
+                  "predicted heatsink maximum has risen", "changed since the baseline",
+                  "2.6.0"):
+        assert words in page1, words
+    date = latest["earth.zs"]["at"][:10]
+    assert page1.count(date) >= 6  # each change with its baseline date
     # by weight: the RCD's +692 % is further past its limit (50 %) than insulation's fall
     # by 45 (a factor of 10 is the limit: log 45 / log 10 = 1.65)
     assert page1.index("RCD trip time has risen") < page1.index("insulation resistance has")
