@@ -104,18 +104,31 @@ def due(reg, today: dt.date, within_days: int) -> list[Due]:
         if when > horizon:
             continue
         out.append((job, loaded, found, when))
+    from .job import FileStore
+
+    files = FileStore(reg)  # recorded files, for the checks that read them
+    instruments = {i.id: i for i in reg.instruments()}
     rows = []
-    for job, loaded, (date, source), when in out:
-        rows.append(Due(
-            job=job.short_id, uuid=job.uuid, site=job.details.get("site", ""),
-            address=job.details.get("address", ""), client=job.details.get("client", ""),
-            client_contact=job.details.get("client_contact", ""), date=date, source=source,
-            days=(when - today).days, overdue=when < today,
-            origin={"verified": "verified import", "unverified": "UNVERIFIED import"}.get(
-                job.imported, "made here"),
-            baseline=_baseline_text(job.baseline), status=_status(reg, job, loaded)))
+    try:
+        for job, loaded, found, when in out:
+            rows.append(_row(reg, job, loaded, found, when, today, files, instruments))
+    finally:
+        files.close()
     rows.sort(key=lambda r: (r.date, r.job))
     return rows
+
+
+def _row(reg, job, loaded, found, when, today, files, instruments) -> Due:
+    date, source = found
+    d = job.details
+    return Due(
+        job=job.short_id, uuid=job.uuid, site=d.get("site", ""), address=d.get("address", ""),
+        client=d.get("client", ""), client_contact=d.get("client_contact", ""), date=date,
+        source=source, days=(when - today).days, overdue=when < today,
+        origin={"verified": "verified import", "unverified": "UNVERIFIED import"}.get(
+            job.imported, "made here"),
+        baseline=_baseline_text(job.baseline),
+        status=_status(reg, job, loaded, files, instruments))
 
 
 def _baseline_text(b: dict[str, Any]) -> str:
@@ -125,11 +138,10 @@ def _baseline_text(b: dict[str, Any]) -> str:
             f"{'verified' if b['verified'] else 'UNVERIFIED'})")
 
 
-def _status(reg, job, loaded) -> str:
+def _status(reg, job, loaded, files, instruments) -> str:
     from .checks.evaluate import evaluate, job_status
 
-    instruments = {i.id: i for i in reg.instruments()}
-    return job_status(evaluate(loaded.checklist, reg.entries(job), instruments, None,
+    return job_status(evaluate(loaded.checklist, reg.entries(job), instruments, files,
                                baseline=job.baseline or None))
 
 

@@ -334,7 +334,7 @@ def _zone(source, tz):
 
     try:
         return ZoneInfo(str(tz))
-    except (ZoneInfoNotFoundError, ValueError):
+    except (ZoneInfoNotFoundError, ValueError, OSError):
         raise CaptureError(f"{source}: time zone {tz!r} is not known; give an IANA zone such "
                            "as Europe/London, Europe/Paris or UTC") from None
 

@@ -159,7 +159,7 @@ def profile(
 
         try:
             ZoneInfo(tz)
-        except (ZoneInfoNotFoundError, ValueError):
+        except (ZoneInfoNotFoundError, ValueError, OSError):
             raise UserError(f"--tz: {tz!r} is not a known time zone; give an IANA zone such as "
                             "Europe/London or UTC") from None
         given["tz"] = tz

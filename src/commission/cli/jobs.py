@@ -76,7 +76,7 @@ def checked_details(**given: str | None) -> dict[str, str]:
 
             try:
                 ZoneInfo(value)
-            except (ZoneInfoNotFoundError, ValueError):
+            except (ZoneInfoNotFoundError, ValueError, OSError):
                 raise UserError(f"--timezone {value}: not a time zone name (accepted: IANA "
                                 "names such as Europe/London, Europe/Paris, UTC)") from None
         elif key == "next_inspection" and value:

@@ -30,7 +30,7 @@ def zone(name: str | None):
 
     try:
         return ZoneInfo(name or "UTC")
-    except (ZoneInfoNotFoundError, ValueError):
+    except (ZoneInfoNotFoundError, ValueError, OSError):
         return ZoneInfo("UTC")
 
 
