@@ -90,6 +90,7 @@ def test_untrusted_baseline_is_refused_unless_unverified(cli, baseline, register
     assert "UNVERIFIED baseline" in cli("jobs").stdout
 
 
+@pytest.mark.slow
 def test_tampered_baseline_is_refused_unless_unverified(cli, baseline, tmp_path,
                                                         register_path):
     pdf, cert = baseline
@@ -107,6 +108,7 @@ def test_tampered_baseline_is_refused_unless_unverified(cli, baseline, tmp_path,
     assert _show(cli, job)["baseline"]["verified"] is False
 
 
+@pytest.mark.slow
 def test_revisit_of_an_imported_job(cli, baseline):
     pdf, cert = baseline
     imported = cli("import", pdf, "--trust", cert)
