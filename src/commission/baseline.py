@@ -2,7 +2,7 @@
 
 A revisit job is compared with the record of the visit before it (its *baseline*), named
 by the SHA-256 of the record's canonical JSON — not of the PDF, whose bytes change when it
-is countersigned. The baseline is kept with the job (register step 9) and embedded in the
+is countersigned. The baseline is kept with the job (register step 10) and embedded in the
 revisit's own record, so `verify` re-derives every change verdict from the record alone.
 
 What is kept of each visit: every repeated reading as that visit's check judged it (the

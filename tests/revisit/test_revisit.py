@@ -145,19 +145,19 @@ def test_carry_names_a_section_or_item():
         parse(text + "revisit:\n  temperature: supply.voltage\n", "x", checks=CHECKS)
 
 
-def test_register_from_schema_8_migrates_on_first_use(cli, tmp_path):
-    """tests/data/register-v8.sqlite3 was made by main's code at schema 8 (one job with a
+def test_register_from_schema_9_migrates_on_first_use(cli, tmp_path):
+    """tests/data/register-v9.sqlite3 was made by main's code at schema 9 (one job with a
     next inspection date and two answers)."""
-    copy = tmp_path / "v8.sqlite3"
-    shutil.copy(DATA / "register-v8.sqlite3", copy)
-    assert sqlite3.connect(copy).execute("PRAGMA user_version").fetchone()[0] == 8
+    copy = tmp_path / "v9.sqlite3"
+    shutil.copy(DATA / "register-v9.sqlite3", copy)
+    assert sqlite3.connect(copy).execute("PRAGMA user_version").fetchone()[0] == 9
     listed = cli("jobs", "--json", "--register", copy)
     assert listed.exit_code == 0, listed.output
     (job,) = json.loads(listed.stdout)
-    assert job["site"] == "Fixture Site v8" and job["next_inspection"] == "2027-03-01"
+    assert job["site"] == "Fixture Site v9" and job["next_inspection"] == "2027-03-01"
     assert job["baseline_record_sha256"] is None
     db = sqlite3.connect(copy)
-    assert db.execute("PRAGMA user_version").fetchone()[0] == 9
+    assert db.execute("PRAGMA user_version").fetchone()[0] == 10
     assert db.execute("SELECT count(*) FROM entries WHERE carried IS NULL").fetchone()[0] == 2
     shown = cli("show", job["id"], "--json", "--register", copy)
     items = {i["id"]: i for i in json.loads(shown.stdout)["items"]}
