@@ -104,8 +104,6 @@ def commands(world) -> list[tuple[str, list[str]]]:
                      "--register", str(base / "revisit.sqlite3")]),
         ("revisit", ["revisit", str(record), "--checklist", "diverter-1ph-periodic",
                      "--register", str(base / "revisit.sqlite3")]),  # refused: not trusted
-        ("seal", ["seal", str(record), "--tsa", "http://127.0.0.1:9/", "--out",
-                  str(base / "sealed.pdf")]),  # refused: no timestamp authority there
         ("due", ["due", "--within", "800d", "--ics", str(base / "due.ics")]),
         ("due", ["due", "--within", "soon"]),  # refused: not a window
         ("blank", ["blank", "diverter-1ph", "--out", str(base / "blank.pdf")]),

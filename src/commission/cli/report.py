@@ -276,6 +276,7 @@ def import_(
 
     with opened(file) as stream:
         attached = attachments(open_pdf(stream)[0])
+        payload = attached.get(RECORD_NAME)  # its hash names the record to a later revisit
         files = {}
         for meta in record.files:
             try:
@@ -285,7 +286,6 @@ def import_(
     state = "verified" if result.ok() else "unverified"
     from ..record import record_hash
 
-    payload = files.get(RECORD_NAME)
     short, restored = restore(register, record, files, imported=state,
                               record_sha256=record_hash(payload) if payload else "")
     if state == "unverified":

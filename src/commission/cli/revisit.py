@@ -57,7 +57,7 @@ def revisit(
         from ..report.verify import attachments
         from .report import _verification
 
-        result = _verification(path, trust)
+        result = _verification(path, trust, read_anyway=unverified)
         content = result.content
         if content is None or content.record is None:
             problem = result.first_problem() if content is None else content.problem
@@ -72,7 +72,10 @@ def revisit(
                     "claims a released version" not in (content.problem or ""):
                 raise UserError(f"{path}: {content.problem}; no revisit started")
         record = content.record
-        payload = attachments(open_pdf(path.read_bytes())[0])[RECORD_NAME]
+        from ..report.source import opened
+
+        with opened(path) as stream:
+            payload = attachments(open_pdf(stream)[0])[RECORD_NAME]
         sha = record_hash(payload)
         base = baseline_of(record, sha, verified=result.ok() and not record.job.unverified)
         details = details_of(record)
