@@ -58,16 +58,17 @@ def revisit(
         from .report import _verification
 
         result = _verification(path, trust, read_anyway=unverified)
+        if not result.ok() and not unverified:
+            typer.echo(f"not started: {path.name}: {safe(result.first_problem())} (nothing "
+                       "written; --unverified starts the revisit marked unverified)", err=True)
+            raise typer.Exit(1)
         content = result.content
         if content is None or content.record is None:
+            # no record, or one that cannot be read: never a baseline, even --unverified
             problem = result.first_problem() if content is None else content.problem
             raise UserError(f"{path}: {problem}; no revisit started")
         if not result.ok():
             problem = result.first_problem()
-            if not unverified:
-                typer.echo(f"not started: {path.name}: {safe(problem)} (nothing written; "
-                           "--unverified starts the revisit marked unverified)", err=True)
-                raise typer.Exit(1)
             if content.failed_at in ("checklist", "entries") and \
                     "claims a released version" not in (content.problem or ""):
                 raise UserError(f"{path}: {content.problem}; no revisit started")
