@@ -129,7 +129,7 @@ def _identity(home: Path):
 
 
 def _sign(data: bytes, *, field: str, passphrase: str = PASS, identity=None, box=None,
-          page: int = 0, alter=None, text: str | None = None) -> bytes:
+          page: int = 0, alter=None, text: str | None = None, border: int = 3) -> bytes:
     """Sign with pyHanko in a new revision, optionally with a visible widget at ``box``
     showing ``text`` (pyHanko's text stamp), after ``alter(writer)`` in that revision."""
     from pyhanko.sign import signers
@@ -144,7 +144,7 @@ def _sign(data: bytes, *, field: str, passphrase: str = PASS, identity=None, box
     meta = signers.PdfSignatureMetadata(field_name=field, subfilter=SigSeedSubFilter.PADES,
                                         md_algorithm="sha256")
     spec = SigFieldSpec(sig_field_name=field, on_page=page, box=box) if box else None
-    style = TextStampStyle(stamp_text=text) if text else None
+    style = TextStampStyle(stamp_text=text, border_width=border) if text else None
     signer = _signer(identity, passphrase)
     pdf_signer = signers.PdfSigner(meta, signer=signer, new_field_spec=spec, stamp_style=style)
     return pdf_signer.sign_pdf(w).getvalue()
@@ -549,3 +549,59 @@ def _embed_raw(w, name: str, data: bytes) -> None:
     blob = embed.EmbeddedFileObject.from_file_data(w, data=data, compress=False)
     embed.embed_file(w, embed.FileSpec(file_spec_string=name, file_name=name,
                                        embedded_data=blob))
+
+
+def _stamp_box(path: Path):
+    from commission import record as rec
+    from commission.report.signatures import open_pdf
+    from commission.report.source import opened
+    from commission.report.verify import Attachments
+
+    with opened(path) as stream:
+        payload = Attachments(open_pdf(stream)[0]).read(rec.RECORD_NAME, 1 << 25)
+    return rec.read_record(payload)[0].reviewer_stamp
+
+
+def test_stamp_in_the_reserved_box_showing_something_else(cli, maker, demo, tmp_path,
+                                                          monkeypatch):
+    """A trusted reviewer's signature in the reserved field, page and rectangle, whose
+    appearance is not what countersign draws (pyHanko's text stamp saying READY)."""
+    path = maker.record()
+    box = _stamp_box(path)
+    home, rhea = _reviewer(cli, tmp_path, monkeypatch, demo)
+    framed = tmp_path / "stamp-framed.pdf"
+    framed.write_bytes(_sign(path.read_bytes(), field=box.field, page=box.page,
+                             box=tuple(box.rect), text="READY FOR HANDOVER",
+                             identity=_identity(home), passphrase=REVIEWER_PASS))
+    plain = tmp_path / "stamp-text.pdf"
+    plain.write_bytes(_sign(path.read_bytes(), field=box.field, page=box.page,
+                            box=tuple(box.rect), text="READY FOR HANDOVER", border=0,
+                            identity=_identity(home), passphrase=REVIEWER_PASS))
+    monkeypatch.setenv("COMMISSION_HOME", str(demo["folder"]))
+    monkeypatch.setenv("COMMISSION_PASSPHRASE", PASS)
+    assert cli("trust", "add", rhea).exit_code == 0
+    refused(cli, framed, r"modified after signing: signature field 'Reviewer' on page 1: "
+            r"the stamp draws more than text", tmp_path)
+    refused(cli, plain, r"modified after signing: signature field 'Reviewer' on page 1: "
+            r"the stamp does not show what countersign draws", tmp_path)
+
+
+def test_xmp_changed_other_than_by_signing(cli, maker, demo, tmp_path):
+    from pyhanko.pdf_utils import generic
+
+    def retitle(w):
+        meta = w.root["/Metadata"].get_object()
+        data = meta.data.replace(b"Solar diverter commissioning record",
+                                 b"Approved diverter commissioning record", 1)
+        new = w.add_object(generic.StreamObject(
+            {generic.NameObject("/Type"): generic.NameObject("/Metadata"),
+             generic.NameObject("/Subtype"): generic.NameObject("/XML")}, stream_data=data))
+        w.root["/Metadata"] = new
+        w.update_root()
+
+    path = maker.record()
+    attacked = tmp_path / "xmp.pdf"
+    attacked.write_bytes(_sign(path.read_bytes(), field="Later", alter=retitle,
+                               identity=_identity(demo["folder"])))
+    refused(cli, attacked, r"modified after signing.*the XMP metadata changed other than by "
+            r"signing", tmp_path)
