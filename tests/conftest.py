@@ -75,20 +75,34 @@ def need_tool(name: str):
 
 @pytest.fixture(scope="session")
 def _demo_once(tmp_path_factory) -> tuple[Path, str]:
-    """The real `commission demo`, run once per test process (in-process, as the CLI runs
-    it): its folder (register, identity, trust store, signed record) and what it printed.
-    Tests never touch this folder; they take a private copy through ``demo``."""
+    """The real `commission demo`, run once per test session (in-process, as the CLI runs
+    it; shared by the pytest-xdist workers through a file lock in their common temporary
+    folder): its folder (register, identity, trust store, signed record) and what it
+    printed. Tests never touch this folder; they take a private copy through ``demo``."""
+    import fcntl
+    import json
+
     from commission.cli.app import app
 
-    folder = tmp_path_factory.mktemp("demo-once") / "run"
-    old = os.environ.get("COMMISSION_HOME")
-    result = CliRunner().invoke(app, ["demo", "--out", str(folder)])
-    if old is None:
-        os.environ.pop("COMMISSION_HOME", None)
-    else:
-        os.environ["COMMISSION_HOME"] = old
-    assert result.exit_code == 0, result.output
-    return folder, result.stdout
+    base = tmp_path_factory.getbasetemp()
+    if os.environ.get("PYTEST_XDIST_WORKER"):
+        base = base.parent  # the folder every worker's own temporary folder sits in
+    folder = base / "demo-once" / "run"
+    done = base / "demo-once" / "printed.json"
+    done.parent.mkdir(parents=True, exist_ok=True)
+    with open(base / "demo-once.lock", "w") as lock:
+        fcntl.flock(lock, fcntl.LOCK_EX)
+        if not done.exists():
+            old = os.environ.get("COMMISSION_HOME")
+            result = CliRunner().invoke(app, ["demo", "--out", str(folder)])
+            if old is None:
+                os.environ.pop("COMMISSION_HOME", None)
+            else:
+                os.environ["COMMISSION_HOME"] = old
+            assert result.exit_code == 0, result.output
+            done.write_text(json.dumps(result.stdout), encoding="utf-8")
+        out = json.loads(done.read_text(encoding="utf-8"))
+    return folder, out
 
 
 @pytest.fixture(scope="module")

@@ -179,6 +179,7 @@ def test_three_phase_demo_is_ready(demo3):
     assert "sequence L1-L2-L3 measured" in cap["reason"]
 
 
+@pytest.mark.slow
 def test_swapped_and_reversed_clamps_fail_with_instructions(demo3):
     """Clamps 2 and 3 swapped, clamp 2 also reversed: the record says what to do."""
     _capture_3ph(demo3.dir / "files" / "clamp-capture-3ph.csv", perm=(0, 2, 1),

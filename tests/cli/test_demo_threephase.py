@@ -8,9 +8,12 @@ from __future__ import annotations
 
 import subprocess
 
+import pytest
+
 from conftest import need_tool
 
 
+@pytest.mark.slow
 def test_three_phase_demo_is_walked_signed_and_verified(cli, tmp_path):
     """`demo --scenario three-phase`: every answer recorded, status ready, verified by our
     verify and by pdfsig; the record's text holds the per-phase items and the clamp result."""

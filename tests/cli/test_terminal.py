@@ -57,6 +57,7 @@ def _answered_job(cli, new_job) -> str:
     return job
 
 
+@pytest.mark.slow
 def test_plain_show_is_ascii_safe_and_80_columns(cli, new_job):
     job = _answered_job(cli, new_job)
     fancy = cli("show", job)
@@ -79,6 +80,7 @@ def test_plain_show_is_ascii_safe_and_80_columns(cli, new_job):
     assert len(out.splitlines()) >= len(fancy.stdout.splitlines())
 
 
+@pytest.mark.slow
 def test_plain_does_not_touch_json(cli, new_job):
     job = _answered_job(cli, new_job)
     fancy = cli("show", job, "--json").stdout

@@ -76,7 +76,8 @@ def test_the_device_id_is_kept_in_the_register(demo):
 
 # ------------------------------------------------------------------- previous release
 
-@pytest.mark.parametrize(("name", "version"), [("record-v1", "1.2.0"), ("record-v1b", "1.5.0")])
+@pytest.mark.parametrize(("name", "version"), [
+    ("record-v1", "1.2.0"), pytest.param("record-v1b", "1.5.0", marks=pytest.mark.slow)])
 def test_a_record_of_the_previous_release_still_verifies(cli, name, version):
     """record-v1b was made by main's code just before format 2 (after the layout work added
     next_inspection and language to format 1, and answered items without a check became
@@ -90,6 +91,7 @@ def test_a_record_of_the_previous_release_still_verifies(cli, name, version):
     assert json.loads(_payload(pdf))["format"] == "commission-record/1"
 
 
+@pytest.mark.slow
 def test_a_format_2_record_still_verifies(cli):
     """record-v2 was made by `commission demo` with main's code just before format 3
     (its installer certificate: record-v2-installer.pem)."""
@@ -111,6 +113,7 @@ def test_a_format_2_record_still_verifies(cli):
     assert result.stdout.strip().endswith("verified")
 
 
+@pytest.mark.slow
 def test_a_record_of_the_previous_release_imports(cli, tmp_path):
     target = tmp_path / "v1.sqlite3"
     result = cli("import", DATA / "record-v1.pdf", "--trust", DATA / "record-v1-installer.pem",

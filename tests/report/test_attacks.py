@@ -240,6 +240,7 @@ def test_countersigned_record_verifies_with_both_trusted(cli, maker, demo, tmp_p
 # --------------------------------------------------------------------------- controls
 
 
+@pytest.mark.slow
 def test_control_with_a_blank_field_and_a_countersignature_verifies(cli, maker, demo,
                                                                      tmp_path, monkeypatch):
     """The blank-field attack's own steps minus the reveal: verifies."""
@@ -319,6 +320,7 @@ def test_annotation_added(cli, maker, demo, tmp_path):
     refused(cli, attacked, r"modified after signing", tmp_path)
 
 
+@pytest.mark.slow
 def test_visible_signature_widget_with_a_trusted_key(cli, maker, demo, tmp_path):
     """A later signature of the (trusted) installer whose widget covers the status box."""
     path = maker.record()
@@ -347,6 +349,7 @@ def test_visible_signature_widget_with_an_untrusted_key(cli, maker, demo, tmp_pa
     refused(cli, attacked, r"signature 'Overlay' \(Mallory\) is not trusted", tmp_path)
 
 
+@pytest.mark.slow
 def test_blank_field_prepared_before_signing_revealed_after_countersignature(
         cli, maker, demo, tmp_path, monkeypatch):
     from pyhanko.sign.fields import SigFieldSpec, append_signature_field
@@ -380,6 +383,7 @@ def _embed(w, name: str, data: bytes) -> None:
                                        embedded_data=blob))
 
 
+@pytest.mark.slow
 def test_attachment_added(cli, maker, demo, tmp_path):
     path = maker.record()
     attacked = tmp_path / "added.pdf"
@@ -420,6 +424,7 @@ def test_attachment_removed(cli, maker, tmp_path):
     refused(cli, attacked, r"changed or extended after the last signature", tmp_path)
 
 
+@pytest.mark.slow
 def test_document_info_changed_other_than_by_signing(cli, maker, demo, tmp_path):
     from pyhanko.pdf_utils import generic
 
@@ -474,6 +479,7 @@ def test_bytes_appended(cli, maker, tmp_path):
     refused(cli, attacked, r"changed or extended after the last signature", tmp_path)
 
 
+@pytest.mark.slow
 def test_pages_of_another_record_around_this_record(cli, maker, tmp_path):
     """Pages drawn from other results (a critical RCD test failing: not ready) around
     this record, footers and document info naming this record's hash."""
@@ -502,6 +508,7 @@ def test_pages_with_another_verdict_for_one_item(cli, maker, tmp_path):
             r"recorded", tmp_path)
 
 
+@pytest.mark.slow
 def test_a_different_footer_hash(cli, maker, tmp_path):
     attacked = maker.record("footer.pdf", footer="ab" * 32)
     refused(cli, attacked, r"the pages do not say what the record says: page 1 of \d+: its "
@@ -523,6 +530,7 @@ def test_no_record_at_all_is_not_a_commission_record(cli, tmp_path):
     assert cli("import", plain, "--register", target).exit_code == 2 and not target.exists()
 
 
+@pytest.mark.slow
 def test_attachment_over_its_limit_inside_the_signed_revision(cli, maker, tmp_path,
                                                               monkeypatch):
     """A file over the attachment limit, added before the (trusted) installer signs, is
@@ -562,6 +570,7 @@ def _stamp_box(path: Path):
     return rec.read_record(payload)[0].reviewer_stamp
 
 
+@pytest.mark.slow
 def test_stamp_in_the_reserved_box_showing_something_else(cli, maker, demo, tmp_path,
                                                           monkeypatch):
     """A trusted reviewer's signature in the reserved field, page and rectangle, whose

@@ -82,6 +82,7 @@ def test_150_items_paginate_without_overlap(long_record):
             assert all(w["x0"] >= 0 and w["x1"] <= page.width for w in words), number
 
 
+@pytest.mark.slow
 def test_unicode_names_are_drawn(long_record):
     need_tool("pdftotext")
     text = subprocess.run(["pdftotext", str(long_record), "-"], capture_output=True,

@@ -115,6 +115,7 @@ def _flat(text: str) -> str:
     return re.sub(r"\s+", " ", text)
 
 
+@pytest.mark.slow
 def test_own_checklist_renders_summary_homeowner_findings_and_chart(own_record):
     """pdftotext of a record made from a checklist with none of the shipped ids."""
     import pdfplumber

@@ -210,6 +210,7 @@ def test_printed_verdict_contradicting_reading_is_caught(cli, demo, tmp_path, mo
     assert "protection.rcd.t1" in ids
 
 
+@pytest.mark.slow
 def test_countersigned_record_still_verifies(cli, demo, tmp_path, monkeypatch):
     need_tool("pdfsig")
     from commission.report import identity, trust

@@ -698,6 +698,7 @@ def test_sign_refuses_a_used_field_and_non_pdfs(cli):
 # --------------------------------------------------------------------------- countersign
 
 
+@pytest.mark.slow
 def test_countersigned_file_keeps_both_signatures_valid(cli, tmp_path, monkeypatch):
     from commission.report.signatures import check_signatures
 
@@ -755,6 +756,7 @@ def test_countersigned_file_keeps_both_signatures_valid(cli, tmp_path, monkeypat
     assert fields == ["InstallerSignature", "Reviewer", "Reviewer-2"]
 
 
+@pytest.mark.slow
 def test_untrusted_installer_needs_the_fingerprint_typed(cli, tmp_path, monkeypatch):
     """An installer missing from the reviewer's trust store: refused, unless the reviewer
     types the installer's certificate SHA-256 (the one `identity show` prints)."""

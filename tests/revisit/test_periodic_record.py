@@ -81,6 +81,7 @@ def test_page_one_names_the_baseline_and_lists_the_deteriorations(cli, baseline,
     assert any(tmp_path.glob("p1*.png"))
 
 
+@pytest.mark.slow
 def test_three_visits_give_a_trend_that_crosses_where_least_squares_says(cli, tmp_path):
     from commission.checklist import load
     from commission.checks import CHECKS

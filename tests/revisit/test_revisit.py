@@ -61,6 +61,7 @@ def test_revisit_names_the_baseline_by_its_record_hash_and_carries_details(
     assert {"insulation.resistance", "earth.zs", "condition.damage"} <= pending
 
 
+@pytest.mark.slow
 def test_confirming_a_carried_answer_adds_an_entry_of_today(cli, baseline, tmp_path):
     pdf, cert = baseline
     job = _start(cli, pdf, "--trust", cert).stdout.strip().splitlines()[-1]
@@ -75,6 +76,7 @@ def test_confirming_a_carried_answer_adds_an_entry_of_today(cli, baseline, tmp_p
     assert after["time"] > before["time"]  # today's entry, after the baseline's
 
 
+@pytest.mark.slow
 def test_untrusted_baseline_is_refused_unless_unverified(cli, baseline, register_path):
     pdf, _ = baseline  # the installer's certificate is not trusted here
     refused = _start(cli, pdf)

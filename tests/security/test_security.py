@@ -197,6 +197,7 @@ def test_imported_attachment_names_cannot_escape(cli, demo, tmp_path, monkeypatc
         assert "0 files" in imported.stdout
 
 
+@pytest.mark.slow
 def test_import_of_a_genuine_record_restores_its_files(cli, demo, tmp_path):
     """The control for the test above: real attachments (named by their SHA-256) are
     restored, so the refusal is specific to names that are not their content's hash."""
@@ -334,6 +335,7 @@ def _identity(cli, home: Path, name: str, registration: str, pf: Path, monkeypat
     return home / "identity" / "cert.pem"
 
 
+@pytest.mark.slow
 def test_verify_trusts_only_the_trust_store(cli, new_job, tmp_path, monkeypatch):
     pf = tmp_path / "pass.txt"
     pf.write_text("a long enough passphrase\n", encoding="utf-8")
