@@ -296,6 +296,7 @@ def test_page_content_changed_then_signed_by_a_trusted_key(cli, maker, demo, tmp
     refused(cli, attacked, r"modified after signing", tmp_path)
 
 
+@pytest.mark.slow
 def test_annotation_added(cli, maker, demo, tmp_path):
     from pyhanko.pdf_utils import generic
 
@@ -412,6 +413,7 @@ def test_attachment_swapped(cli, maker, demo, tmp_path):
     refused(cli, attacked, r"modified after signing", tmp_path)
 
 
+@pytest.mark.slow
 def test_attachment_removed(cli, maker, tmp_path):
     """The record attachment (and the name tree holding it) removed after signing."""
     path = maker.record()
@@ -595,6 +597,7 @@ def test_stamp_in_the_reserved_box_showing_something_else(cli, maker, demo, tmp_
             r"the stamp does not show what countersign draws", tmp_path)
 
 
+@pytest.mark.slow
 def test_xmp_changed_other_than_by_signing(cli, maker, demo, tmp_path):
     from pyhanko.pdf_utils import generic
 
