@@ -301,8 +301,10 @@ def _periodic(c: _Context, status: str) -> list:
                          _p(now, c.st["cell"]), _p(rate, c.st["cell"]),
                          _p(ch.reason, c.st["cell"])])
         out.append(_table(rows, [86, 74, 52, 52, 216]))
-    fine = [r.change.what if r.change.unit else r.item.id for r in judged
-            if r.change.verdict != "review"]
+    # named with their item ids: two items may measure the same quantity (the RCD time at
+    # IΔn and at 5 IΔn), and one of them may have changed while the other did not
+    fine = [f"{r.change.what} ({r.item.id})" if r.change.unit else r.item.id
+            for r in judged if r.change.verdict != "review"]
     if fine:
         out.append(_p("Unchanged within the limits of change: " + ", ".join(fine) + ".",
                       c.st["small"]))
