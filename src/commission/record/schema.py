@@ -279,8 +279,9 @@ class Baseline(_Strict):
     visits: Annotated[list[Visit], Field(min_length=1, max_length=200)]
 
 
-class Record(_Strict):
-    format: Literal["commission-record/3"]
+class _RecordBody(_Strict):
+    """What formats 2 and 3 share: everything but the format tag and the signing block."""
+
     tool: Tool
     generated_at: Timestamp
     job: Job
@@ -290,14 +291,18 @@ class Record(_Strict):
     files: Annotated[list[FileMeta], Field(max_length=MAX_ITEMS)]
     verdicts: Annotated[list[Verdict], Field(max_length=MAX_ITEMS)]
     status: Literal[STATUSES]  # type: ignore[valid-type]
-    signing: SigningInfo | None = None
     next_inspection: NextInspection | None = None  # when the installation is due again
     language: Line = "en"  # of the homeowner's pages
-    baseline: Baseline | None = None  # a periodic inspection: the record it was compared with
 
     @property
     def check_logic(self) -> int:
         return 1 if self.tool.check_logic is None else self.tool.check_logic
+
+
+class Record(_RecordBody):
+    format: Literal["commission-record/3"]
+    signing: SigningInfo | None = None
+    baseline: Baseline | None = None  # a periodic inspection: the record it was compared with
 
     @property
     def installer_certificate_sha256(self) -> str | None:
@@ -310,24 +315,9 @@ class Record(_Strict):
 
 # -- format 2 (read only) -----------------------------------------------------------
 
-class RecordV2(_Strict):
+class RecordV2(_RecordBody):
     format: Literal["commission-record/2"]
-    tool: Tool
-    generated_at: Timestamp
-    job: Job
-    checklist: ChecklistRef
-    entries: Annotated[list[Entry], Field(max_length=MAX_ENTRIES)]
-    instruments: Annotated[list[Instrument], Field(max_length=MAX_ITEMS)]
-    files: Annotated[list[FileMeta], Field(max_length=MAX_ITEMS)]
-    verdicts: Annotated[list[Verdict], Field(max_length=MAX_ITEMS)]
-    status: Literal[STATUSES]  # type: ignore[valid-type]
     signing: SigningInfoV2 | None = None
-    next_inspection: NextInspection | None = None  # when the installation is due again
-    language: Line = "en"  # of the homeowner's pages
-
-    @property
-    def check_logic(self) -> int:
-        return 1 if self.tool.check_logic is None else self.tool.check_logic
 
     @property
     def installer_certificate_sha256(self) -> str | None:
