@@ -1,62 +1,106 @@
-"""The ``commission`` command. Only typer is imported at start-up; every command
-imports what it needs when it runs, so ``commission --help`` is instant."""
+"""The ``commission`` command. Only typer is imported at start-up, and only the command
+named on the line is loaded (the whole app is built for help, a typo or no command);
+every command imports what it needs when it runs."""
 
+import importlib
 import os
 import sys
 
 import typer
 
-from . import (
-    analyse,
-    checklists,
-    demo,
-    due,
-    forms,
-    identity,
-    instruments,
-    jobs,
-    report,
-    revisit,
-    walk,
-)
-from . import sync as sync_cmd
 from .common import friendly
 
-app = typer.Typer(
-    name="commission",
-    help="Commission a solar surplus diverter: walk the checklist on site, check every "
-    "reading against the physics, keep everything in one register.\n\n"
-    "Mains work can kill: isolate and prove dead; competent, licensed persons only; "
-    "local wiring rules come first.",
-    no_args_is_help=True,
-    add_completion=False,
-    pretty_exceptions_enable=False,
-    context_settings={"help_option_names": ["-h", "--help"]},
+# Every command, in the order `commission --help` lists them: (name, module, attribute,
+# kind). "group" is a typer sub-app, "command" a function. The one table serves both the
+# whole app (help, tests) and the one-command app the console entry point builds, so a
+# command runs without importing the others (see _app_for).
+COMMANDS: tuple[tuple[str, str, str, str], ...] = (
+    ("checklists", "checklists", "app", "group"),
+    ("forms", "forms", "app", "group"),
+    ("instruments", "instruments", "app", "group"),
+    ("identity", "identity", "identity_app", "group"),
+    ("trust", "identity", "trust_app", "group"),
+    ("analyse", "analyse", "app", "group"),
+    ("new", "jobs", "new", "command"),
+    ("jobs", "jobs", "jobs", "command"),
+    ("show", "jobs", "show", "command"),
+    ("amend", "jobs", "amend", "command"),
+    ("walk", "walk", "walk", "command"),
+    ("backup", "jobs", "backup", "command"),
+    ("demo", "demo", "demo", "command"),
+    ("countersign", "identity", "countersign", "command"),
+    ("report", "report", "report", "command"),
+    ("verify", "report", "verify", "command"),
+    ("import", "report", "import_", "command"),
+    ("blank", "report", "blank", "command"),
+    ("seal", "report", "seal", "command"),
+    ("sync", "sync", "sync", "command"),
+    ("confirm", "sync", "confirm", "command"),
+    ("assign", "sync", "assign", "command"),
+    ("revisit", "revisit", "revisit", "command"),
+    ("due", "due", "due", "command"),
 )
-app.add_typer(checklists.app, name="checklists")
-app.add_typer(forms.app, name="forms")
-app.add_typer(instruments.app, name="instruments")
-app.add_typer(identity.identity_app, name="identity")
-app.add_typer(identity.trust_app, name="trust")
-app.add_typer(analyse.app, name="analyse")
-app.command("new")(friendly(jobs.new))
-app.command("jobs")(friendly(jobs.jobs))
-app.command("show")(friendly(jobs.show))
-app.command("amend")(friendly(jobs.amend))
-app.command("walk")(friendly(walk.walk))
-app.command("backup")(friendly(jobs.backup))
-app.command("demo")(friendly(demo.demo))
-app.command("countersign")(friendly(identity.countersign))
-app.command("report")(friendly(report.report))
-app.command("verify")(friendly(report.verify))
-app.command("import")(friendly(report.import_))
-app.command("blank")(friendly(report.blank))
-app.command("seal")(friendly(report.seal))
-app.command("sync")(friendly(sync_cmd.sync))
-app.command("confirm")(friendly(sync_cmd.confirm))
-app.command("assign")(friendly(sync_cmd.assign))
-app.command("revisit")(friendly(revisit.revisit))
-app.command("due")(friendly(due.due))
+_ROOT_FLAGS = ("--plain",)  # root options that take no value and may precede the command
+
+
+def _new_app() -> typer.Typer:
+    root = typer.Typer(
+        name="commission",
+        help="Commission a solar surplus diverter: walk the checklist on site, check every "
+        "reading against the physics, keep everything in one register.\n\n"
+        "Mains work can kill: isolate and prove dead; competent, licensed persons only; "
+        "local wiring rules come first.",
+        no_args_is_help=True,
+        add_completion=False,
+        pretty_exceptions_enable=False,
+        context_settings={"help_option_names": ["-h", "--help"]},
+    )
+    root.callback()(_root)
+    return root
+
+
+def _add(root: typer.Typer, name: str, module: str, attr: str, kind: str) -> None:
+    target = getattr(importlib.import_module(f"{__package__}.{module}"), attr)
+    if kind == "group":
+        root.add_typer(target, name=name)
+    else:
+        root.command(name)(friendly(target))
+
+
+def _full_app() -> typer.Typer:
+    root = _new_app()
+    for entry in COMMANDS:
+        _add(root, *entry)
+    return root
+
+
+def _app_for(argv: list[str]) -> typer.Typer:
+    """The app for one command line: only the named command when the line names one
+    (after the root's flags), else every command (root help, a typo, no command), so
+    that help and "no such command" read exactly as from the whole app."""
+    words = list(argv)
+    while words and words[0] in _ROOT_FLAGS:
+        words.pop(0)
+    if words:
+        for entry in COMMANDS:
+            if entry[0] == words[0]:
+                root = _new_app()
+                _add(root, *entry)
+                return root
+    return _full_app()
+
+
+_whole: typer.Typer | None = None
+
+
+def __getattr__(name: str) -> typer.Typer:
+    """``app``: the whole command, built on first use (tests, documentation)."""
+    global _whole
+    if name == "app":
+        if _whole is None:
+            _whole = _full_app()
+        return _whole
+    raise AttributeError(name)
 
 
 def _plain(value: bool) -> bool:
@@ -79,7 +123,6 @@ def _version(value: bool) -> bool:
     return value
 
 
-@app.callback()
 def _root(
     version: bool = typer.Option(False, "--version", is_eager=True, callback=_version,
                                  help="Print the version and exit."),
@@ -122,7 +165,8 @@ def _main(argv: list[str] | None, debug: bool) -> int:
     from ..errors import UserError
 
     try:
-        app(args=argv, prog_name="commission")
+        words = sys.argv[1:] if argv is None else argv
+        _app_for(words)(args=words, prog_name="commission")
     except SystemExit as exc:
         code = exc.code
         return code if isinstance(code, int) else (0 if code is None else 1)
