@@ -11,7 +11,6 @@ from typer.testing import CliRunner
 
 from commission.cli import app as app_module
 
-
 # Rendering help costs about 0.25 s a command: a group, a plain command and the one whose
 # function name differs from its command name stay in the fast suite, the rest are slow.
 _FAST = {"analyse", "verify", "import"}
