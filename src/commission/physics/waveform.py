@@ -71,6 +71,8 @@ _WINDOW_SPLIT_HZ = 55.0
 # "No significant power flow" below max(5 W, 2 % of S): our default for the direction field.
 _DIRECTION_MIN_W = 5.0
 _DIRECTION_MIN_FRACTION = 0.02
+# Windows are integrated together in batches of about this many samples (bounded memory).
+_BATCH_SAMPLES = 1 << 17
 
 
 @dataclass(frozen=True)
@@ -406,6 +408,7 @@ class CaptureAccumulator:
         self._series: list[tuple[float, float, float, float]] = []
         self._irregular = 0
         self._open: list[float] = []
+        self._due: list[tuple[float, float, int]] = []
 
     def add(self, voltage_v, current_a):
         """Append a chunk of samples.
@@ -550,16 +553,17 @@ class CaptureAccumulator:
         y_before[1:] = y[:-1]
         up = np.flatnonzero((y_before < 0) & (y >= 0))
         up_pos = a + up - 1 + y_before[up] / (y_before[up] - y[up])
-        for e in events:
-            j = int(np.searchsorted(up, e, side="right")) - 1
-            pos = float(up_pos[j]) if j >= 0 else self._last_zero
+        last_up = np.searchsorted(up, events, side="right") - 1
+        for j in last_up.tolist():
+            pos = up_pos[j] if j >= 0 else self._last_zero
             if pos is not None:
-                self._crossing(pos)
+                self._crossing(float(pos))
         self._state = int(filled[-1])
         self._last_y = float(y[-1])
         if up.size:
             self._last_zero = float(up_pos[-1])
         self._y_next = b
+        self._flush()
 
     def _crossing(self, pos):
         if self._open:
@@ -593,38 +597,44 @@ class CaptureAccumulator:
         start = -0.5 + (n - length) / 2.0
         self._window_cycles = cycles
         self._window(start, start + length, cycles)
+        self._flush()
 
     def _window(self, pa, pb, cycles):
-        """Integrate one window from sample position ``pa`` to ``pb`` (``cycles`` cycles).
+        """Queue one window from sample position ``pa`` to ``pb`` (``cycles`` cycles); the
+        queued windows are integrated together by :meth:`_flush`."""
+        self._due.append((pa, pb, cycles))
+
+    def _flush(self):
+        """Integrate the queued windows, in batches of bounded size, in their order.
 
         Each sample stands for the interval of half a sample either side of it; the window
         weights are the overlaps of those intervals with [pa, pb].
         """
-        n_lo = int(math.floor(pa + 0.5))
-        n_hi = int(math.ceil(pb - 0.5))
-        n = np.arange(n_lo, n_hi + 1, dtype=float)
-        w = np.clip(np.minimum(pb, n + 0.5) - np.maximum(pa, n - 0.5), 0.0, 1.0)
-        v = self._buf_v[n_lo - self._buf0 : n_hi + 1 - self._buf0]
-        i = self._buf_i[n_lo - self._buf0 : n_hi + 1 - self._buf0]
-        length = pb - pa
-        wv = w * v
-        wi = w * i
-        sv2 = float(wv @ v)
-        si2 = float(wi @ i)
-        svi = float(wv @ i)
-        phasors = _projections(np.exp((-2j * math.pi * cycles / length) * (n - pa)),
-                               wv, wi, self._orders) * (2.0 / length)  # peak phasors
-        self._vh2 += 0.5 * np.abs(phasors[:, 0]) ** 2
-        self._ih2 += 0.5 * np.abs(phasors[:, 1]) ** 2
-        self._cross += phasors[0, 1] * np.conj(phasors[0, 0])
-        self._sum_v2 += sv2
-        self._sum_i2 += si2
-        self._sum_vi += svi
-        self._sum_len += length
-        self._cycles += cycles
-        self._windows += 1
-        self._series.append((self._t0 + pa / self._rate, math.sqrt(sv2 / length),
-                             math.sqrt(si2 / length), svi / length))
+        due, self._due = self._due, []
+        k = 0
+        while k < len(due):
+            span = max(1.0, due[k][1] - due[k][0] + 2.0)
+            batch = due[k : k + max(1, int(_BATCH_SAMPLES // span))]
+            k += len(batch)
+            pa, pb, cycles = (np.array(col, dtype=float) for col in zip(*batch, strict=True))
+            sv2, si2, svi, vh, ih = _window_sums(self._buf_v, self._buf_i, self._buf0, pa,
+                                                 pb, cycles, self._orders)
+            length = pb - pa
+            self._vh2 += 0.5 * np.sum(np.abs(vh) ** 2, axis=0)
+            self._ih2 += 0.5 * np.sum(np.abs(ih) ** 2, axis=0)
+            self._cross += complex(np.sum(ih[:, 0] * np.conj(vh[:, 0])))
+            starts = (self._t0 + pa / self._rate).tolist()
+            v_rms = np.sqrt(sv2 / length).tolist()
+            i_rms = np.sqrt(si2 / length).tolist()
+            p = (svi / length).tolist()
+            for j, (_, _, c) in enumerate(batch):
+                self._sum_v2 += float(sv2[j])
+                self._sum_i2 += float(si2[j])
+                self._sum_vi += float(svi[j])
+                self._sum_len += float(length[j])
+                self._cycles += c
+                self._windows += 1
+                self._series.append((starts[j], v_rms[j], i_rms[j], p[j]))
 
     def _trim(self):
         if not self._tuned or (self._windows == 0 and self._processed <= self._fallback_limit):
@@ -691,24 +701,78 @@ class CaptureAccumulator:
         )
 
 
-def _projections(z, wv, wi, orders):
-    """``sum_n wv[n]*z[n]**h`` and the same for ``wi``, for h = 1...orders, as (orders, 2).
+def _window_sums(v, i, first, pa, pb, cycles, orders):
+    """Weighted sums of a batch of windows of the samples ``v``, ``i``.
 
-    The powers of z are built by repeated multiplication, and the sums done as one real
-    matrix product on the interleaved real/imaginary parts (much faster than a
-    complex-by-real matrix product in numpy).
+    ``v[0]`` is sample number ``first``; window k runs from sample position ``pa[k]`` to
+    ``pb[k]`` and holds ``cycles[k]`` cycles. Each sample stands for half a sample either
+    side of it, weighted by its overlap with [pa, pb] (1 inside, a fraction at the ends).
+
+    Returns ``(sv2, si2, svi, vh, ih)``: per window the sums of w*v*v, w*i*i and w*v*i, and
+    the peak phasors ``(2/length) * sum w*x*exp(-1j*h*theta*(n - pa))`` of orders
+    h = 1...``orders`` with ``theta = 2*pi*cycles/length``, as (windows, orders) arrays.
+
+    The harmonic sums are evaluated by splitting the sample index m = a*B + b: for each
+    order, ``sum_b exp(-1j*h*theta*b) * sum_a exp(-1j*h*theta*B*a) * y[a*B + b]``. The inner
+    sums of all orders are one real matrix product per window and signal, and only about
+    2*sqrt(length) powers per order are needed instead of ``length``.
     """
-    powers = np.empty((orders, z.size), dtype=complex)
-    powers[0] = z
-    for h in range(1, orders):
-        np.multiply(powers[h - 1], z, out=powers[h])
-    weights = np.zeros((2 * z.size, 4))
-    weights[0::2, 0] = wv
-    weights[0::2, 1] = wi
-    weights[1::2, 2] = wv
-    weights[1::2, 3] = wi
-    out = powers.view(np.float64) @ weights
-    return out[:, 0:2] + 1j * out[:, 2:4]
+    count = pa.size
+    n_lo = np.floor(pa + 0.5).astype(np.intp)
+    n_hi = np.ceil(pb - 0.5).astype(np.intp)
+    size = n_hi - n_lo + 1
+    span = int(size.max())
+    step = int(math.ceil(math.sqrt(span)))
+    blocks = -(-span // step)
+    lo = n_lo - first
+    if int(lo.max()) + span > v.size:  # never for windows found by the tracker
+        pad = int(lo.max()) + span - v.size
+        v = np.concatenate([v, np.zeros(pad)])
+        i = np.concatenate([i, np.zeros(pad)])
+    rows_v = np.lib.stride_tricks.sliding_window_view(v, span)[lo]
+    rows_i = np.lib.stride_tricks.sliding_window_view(i, span)[lo]
+    w = np.ones((count, span))
+    w[:, 0] = _overlap(n_lo.astype(float), pa, pb)
+    w[np.arange(count), size - 1] = _overlap(n_hi.astype(float), pa, pb)
+    w[np.arange(span) >= size[:, None]] = 0.0
+    y = np.zeros((count, 2, blocks * step))
+    wv = np.multiply(w, rows_v, out=y[:, 0, :span])
+    wi = np.multiply(w, rows_i, out=y[:, 1, :span])
+    sv2 = np.einsum("ij,ij->i", wv, rows_v)
+    si2 = np.einsum("ij,ij->i", wi, rows_i)
+    svi = np.einsum("ij,ij->i", wv, rows_i)
+
+    length = pb - pa
+    theta = (2.0 * math.pi) * cycles / length
+    h = np.arange(1, orders + 1, dtype=float)
+    small = _powers(np.exp(-1j * (theta[:, None] * h)), step)  # (count, step, orders)
+    big = _powers(np.exp(-1j * (theta[:, None] * (h * step))), blocks)  # (count, blocks, orders)
+    # inner[k, s, b, h] = sum_a y[k, s, a*step + b] * big[k, a, h]
+    y_t = y.reshape(count, 2, blocks, step).transpose(0, 1, 3, 2)
+    inner = np.matmul(y_t, big.view(float)[:, None]).view(complex)
+    sums = np.einsum("ksbh,kbh->ksh", inner, small)
+    shift = np.exp(-1j * (theta[:, None] * h) * (n_lo - pa)[:, None]) * (2.0 / length)[:, None]
+    sums *= shift[:, None, :]
+    return sv2, si2, svi, sums[:, 0], sums[:, 1]
+
+
+def _overlap(n, pa, pb):
+    """Weight of sample ``n``: overlap of [n - 1/2, n + 1/2] with [pa, pb], 0...1."""
+    return np.clip(np.minimum(pb, n + 0.5) - np.maximum(pa, n - 0.5), 0.0, 1.0)
+
+
+def _powers(base, count):
+    """``out[:, k, :] = base**k`` for k = 0...count-1, by block doubling (few, large
+    multiplications instead of one per power)."""
+    out = np.empty((base.shape[0], count, base.shape[1]), dtype=complex)
+    out[:, 0] = 1.0
+    k = 1
+    while k < count:
+        m = min(k, count - k)
+        top = out[:, k - 1] * base  # base**k
+        np.multiply(out[:, :m], top[:, None, :], out=out[:, k : k + m])
+        k += m
+    return out
 
 
 def _centred_mean(x, length):
