@@ -123,11 +123,10 @@ class JobState:
         return status
 
     def current(self, item_id: str) -> Entry | None:
-        found = None
-        for e in self.entries:
+        for e in reversed(self.entries):  # the last one in the job's order
             if e.item_id == item_id and e.action != "detail":
-                found = e
-        return found
+                return e
+        return None
 
     def _append(self, entry: Entry) -> Entry:
         self.entries.append(entry)

@@ -58,6 +58,27 @@ def test_entries_typed_within_one_millisecond_keep_their_order(engine_reg, job):
     assert [e.raw for e in engine_reg.entries(job)] == [str(v) for v in range(225, 245)]
 
 
+def test_an_entry_after_a_later_one_is_one_millisecond_after_it(engine_reg, job):
+    """When the job's last entry lies ahead of this device's clock (another device's
+    clock ran fast), a new entry is stamped one millisecond after it, carrying the
+    seconds over (the expected times worked out with datetime); it supersedes the
+    item's current entry, and the first entry of another item supersedes nothing."""
+    from datetime import datetime, timedelta
+
+    ahead = "2999-12-31T23:59:59.999Z"
+    first = engine_reg.add_entry(job, "supply.voltage", "answer", "231", 231.0, at=ahead,
+                                 host="dev-b")
+    second = engine_reg.add_entry(job, "supply.voltage", "answer", "232", 232.0)
+    other = engine_reg.add_entry(job, "supply.frequency", "answer", "50", 50.0)
+    step = datetime.fromisoformat(ahead.replace("Z", "+00:00")) + timedelta(milliseconds=1)
+    assert second.at == step.strftime("%Y-%m-%dT%H:%M:%S.") + f"{step.microsecond // 1000:03d}Z"
+    assert second.at == "3000-01-01T00:00:00.000Z"
+    assert other.at > second.at
+    assert second.supersedes == first.id and other.supersedes is None
+    assert first.at == ahead and first.host == "dev-b"
+    assert second.host == engine_reg.device_id()
+
+
 def test_jobs_and_entries_found_by_uuid(engine_reg, job):
     e = engine_reg.add_entry(job, "supply.voltage", "answer", "231", 231.0)
     assert engine_reg.has_job(uuid=job.uuid) and engine_reg.has_job(short_id=job.short_id)

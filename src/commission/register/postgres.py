@@ -29,7 +29,6 @@ from .store import (
     Instrument,
     Job,
     RegisterError,
-    later_than,
     now_iso,
 )
 from .store import who as _who
@@ -41,6 +40,26 @@ _INSTRUMENT_COLS = ("id, serial, make, model, calibration_due, added_at, accurac
 _JOB_COLS = ("id, short_id, uuid, created_at, created_by, " + ", ".join(DETAIL_FIELDS)
              + ", checklist_id, checklist_version, checklist_sha256, checklist_text,"
              " checklist_source, imported, recorded, baseline, record_sha256")
+
+
+# add_entry's one statement (see there). An entry time not in this register's own format
+# (never written by commission) is passed by, as ``later_than`` does.
+_ADD_ENTRY = (
+    "INSERT INTO entries (uuid, job_id, item_id, action, raw, value_json, unit_typed,"
+    " instrument_id, at, by, supersedes, host, read_with, carried)"
+    " SELECT %(uuid)s, %(job)s, %(item)s, %(action)s, %(raw)s, %(value)s, %(unit)s,"
+    " %(instrument)s::bigint,"
+    " CASE WHEN %(at)s::text IS NOT NULL THEN %(at)s::text"
+    " WHEN l.last IS NULL OR %(now)s::text > l.last"
+    " OR l.last !~ '^[0-9]{4}-[0-9]{2}-[0-9]{2}T[0-9]{2}:[0-9]{2}:[0-9]{2}(\\.[0-9]+)?Z$'"
+    " THEN %(now)s::text"
+    " ELSE to_char((l.last::timestamptz + interval '1 millisecond') AT TIME ZONE 'UTC',"
+    " 'YYYY-MM-DD\"T\"HH24:MI:SS.MS\"Z\"') END,"
+    " %(by)s, p.id, %(host)s, %(read_with)s, %(carried)s"
+    " FROM (SELECT max(at) AS last FROM entries WHERE job_id = %(job)s) l"
+    " LEFT JOIN LATERAL (SELECT id FROM entries WHERE job_id = %(job)s AND item_id = %(item)s"
+    " ORDER BY at DESC, uuid DESC LIMIT 1) p ON true"
+    f" RETURNING {_ENTRY_COLS}")
 
 
 def _password_in(url: str) -> bool:
@@ -301,24 +320,18 @@ class PostgresRegister:
                   host: str | None = None, read_with: dict[str, Any] | None = None,
                   carried: str | None = None) -> Entry:
         device = self.device_id() if host is None else host
-        with self._tx():
-            # one round trip for both: the entry this one supersedes, the job's last time
-            prev, last = self._x(
-                "SELECT (SELECT id FROM entries WHERE job_id = %s AND item_id = %s"
-                " ORDER BY at DESC, uuid DESC LIMIT 1),"
-                " (SELECT max(at) FROM entries WHERE job_id = %s)",
-                (job.id, item_id, job.id)).fetchone()
-            if at is None:
-                at = later_than(last)
-            row = self._x(
-                "INSERT INTO entries (uuid, job_id, item_id, action, raw, value_json,"
-                " unit_typed, instrument_id, at, by, supersedes, host, read_with, carried)"
-                f" VALUES (%s,%s,%s,%s,%s,%s,%s,%s,%s,%s,%s,%s,%s,%s) RETURNING {_ENTRY_COLS}",
-                (uuid or str(uuidlib.uuid4()), job.id, item_id, action, raw,
-                 json.dumps(value, ensure_ascii=False), unit_typed, instrument_id, at,
-                 by or self.who(), prev, device,
-                 json.dumps(read_with, sort_keys=True) if read_with else None,
-                 carried)).fetchone()
+        # One statement, so one round trip in its own transaction: the entry this one
+        # supersedes and the job's last entry time are looked up by the server as it
+        # inserts. The time is ``later_than`` (store.py) worked out there: now (this
+        # device's clock), or one millisecond after the job's last entry when the clock
+        # has not moved past it.
+        row = self._x(_ADD_ENTRY, {
+            "uuid": uuid or str(uuidlib.uuid4()), "job": job.id, "item": item_id,
+            "action": action, "raw": raw, "value": json.dumps(value, ensure_ascii=False),
+            "unit": unit_typed, "instrument": instrument_id, "at": at, "now": now_iso(),
+            "by": by or self.who(), "host": device,
+            "read_with": json.dumps(read_with, sort_keys=True) if read_with else None,
+            "carried": carried}).fetchone()
         return _entry(row)
 
     def _entries(self, job_id: int, where: str = "") -> list[Entry]:

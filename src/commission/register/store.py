@@ -82,15 +82,32 @@ def who() -> str:
     return f"cert:{fp}" if fp else "unknown"
 
 
+_FINGERPRINT: dict[tuple, str | None] = {}
+
+
 def identity_fingerprint() -> str | None:
     """SHA-256 of the DER of this user's signing certificate (the PEM decoded with the
-    standard library, so no cryptography import on every entry), or None."""
-    import base64
-
+    standard library, so no cryptography import on every entry), or None. Worked out
+    again only when the certificate file changes (its path, size, inode or time)."""
     from ..paths import config_dir
 
+    path = config_dir() / "identity" / "cert.pem"
     try:
-        pem = (config_dir() / "identity" / "cert.pem").read_text(encoding="ascii")
+        st = path.stat()
+    except OSError:
+        return None
+    key = (str(path), st.st_ino, st.st_size, st.st_mtime_ns, st.st_ctime_ns)
+    if key not in _FINGERPRINT:
+        _FINGERPRINT.clear()
+        _FINGERPRINT[key] = _fingerprint_of(path)
+    return _FINGERPRINT[key]
+
+
+def _fingerprint_of(path: Path) -> str | None:
+    import base64
+
+    try:
+        pem = path.read_text(encoding="ascii")
     except (OSError, UnicodeDecodeError):
         return None
     body = pem.split("-----BEGIN CERTIFICATE-----", 1)[-1].split("-----END", 1)[0]
