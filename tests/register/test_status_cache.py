@@ -142,3 +142,49 @@ def test_heads_after_a_batch_of_entries(engine_reg):
     assert engine_reg.list_jobs(installer="Ben")[1] == 0
     JobState(engine_reg, job).remember_status()
     assert engine_reg.list_jobs()[0][0][2] is True  # the head is the 11:00 reading
+
+
+INSTALLERS = ["Ann Smith", "ANN SMITH", "Ann Smithers", "Ann", "Дмитрий Кузнецов",
+              "Élise Durand", "Bob"]
+
+
+def _matched(engine_reg, name: str) -> list[str]:
+    rows, total = engine_reg.list_jobs(installer=name)
+    assert total == len(rows)
+    return sorted(j.details["installer"] for j, _s, _f in rows)
+
+
+def test_installer_filter_matches_alike_on_both_engines(engine_reg):
+    """`--installer` matches the whole name, spaces around it dropped, A-Z in either case;
+    any other letter exactly (the expected sets are written out here; the same test runs
+    on each engine). An amended installer is matched by the new name only."""
+    for n, name in enumerate(INSTALLERS):
+        _new(engine_reg, f"Site {n}", installer=name)
+    amended = _new(engine_reg, "Site amended", installer="Cy Jones")
+    engine_reg.amend(amended, {"installer": "ann smith"})
+    expected = {
+        "ann smith": ["ANN SMITH", "Ann Smith", "ann smith"],
+        "  Ann SMITH ": ["ANN SMITH", "Ann Smith", "ann smith"],
+        "Ann": ["Ann"],  # a whole name, not the start of one
+        "ann smit": [],
+        "Cy Jones": [],  # amended away
+        "Дмитрий Кузнецов": ["Дмитрий Кузнецов"],
+        "дмитрий кузнецов": [],  # only A-Z fold: the same on every engine and locale
+        "élise durand": [],
+        "ÉLISE DURAND": ["Élise Durand"],  # É exact, the rest A-Z
+        "bob": ["Bob"],
+    }
+    got = {name: _matched(engine_reg, name) for name in expected}
+    assert got == expected
+
+
+def test_installer_filter_through_the_cli_on_both_engines(engine_reg, cli):
+    """The same through `commission jobs --installer` (the register by path or URL)."""
+    for n, name in enumerate(["Ann Smith", "Ann Smithers", "Дмитрий Кузнецов"]):
+        _new(engine_reg, f"Site {n}", installer=name)
+    target = (str(engine_reg.path) if isinstance(engine_reg, Register) else engine_reg.url)
+    for name, sites in (("ANN smith", ["Site 0"]), ("ann", []),
+                        ("Дмитрий Кузнецов", ["Site 2"])):
+        listed = cli("jobs", "--installer", name, "--register", target, "--json")
+        assert listed.exit_code == 0, listed.output
+        assert sorted(j["site"] for j in json.loads(listed.stdout)) == sites

@@ -96,8 +96,9 @@ def jobs(
         help="Only jobs whose last derived status is this (ready, incomplete, not-ready).",
         show_default=False)] = None,
     installer: Annotated[str | None, typer.Option(
-        help="Only this installer's jobs (the job's installer; on a company register also "
-        "the database role it is assigned to).", show_default=False)] = None,
+        help="Only this installer's jobs: the job's installer, the whole name, letters A-Z "
+        "in any case (on a company register also the database role it is assigned to).",
+        show_default=False)] = None,
     due: Annotated[str | None, typer.Option(
         help="Only jobs whose next inspection falls on or before this date: YYYY-MM-DD, or "
         "a number of days from today such as 60d.", show_default=False)] = None,

@@ -470,9 +470,10 @@ class PostgresRegister:
         if status:
             where.append("s.status = %s")
             args.append(status)
-        if installer:
-            where.append("(h.installer = %s OR j.assigned_to = %s)")
-            args += [installer, installer]
+        if installer:  # as on SQLite (Register.list_jobs): lower() under "C" folds A-Z
+            where.append('(lower(h.installer COLLATE "C") = lower(%s COLLATE "C")'
+                         ' OR lower(j.assigned_to COLLATE "C") = lower(%s COLLATE "C"))')
+            args += [installer.strip(), installer.strip()]
         if due:
             where.append("h.next_inspection != '' AND h.next_inspection <= %s")
             args.append(due)

@@ -669,16 +669,23 @@ class Register:
                   ) -> tuple[list[tuple[Job, str | None, bool]], int]:
         """One page of jobs (oldest first) with the cached status and whether it is
         current (see ``status_cache``); filters run in the database. ``due``: a next
-        inspection on or before this ISO date. ``size`` 0: every job."""
+        inspection on or before this ISO date. ``size`` 0: every job.
+
+        ``installer`` matches the job's current installer name whole (not a start of
+        it), with spaces around the given name dropped and the letters A-Z in either
+        case; other letters must match exactly. Both engines fold only A-Z (SQLite's
+        NOCASE collation; PostgreSQL's lower() under the "C" collation, whatever the
+        server's locale), so a name matches alike on both. A company register also
+        matches the database role the job is assigned to, the same way."""
         from ..status_cache import check_logic_version
 
         where, args = ["1 = 1"], []
         if status:
             where.append("s.status = ?")
             args.append(status)
-        if installer:
-            where.append("h.installer = ?")
-            args.append(installer)
+        if installer:  # matched as on PostgreSQL (see the docstring)
+            where.append("h.installer = ? COLLATE NOCASE")
+            args.append(installer.strip())
         if due:
             where.append("h.next_inspection != '' AND h.next_inspection <= ?")
             args.append(due)
