@@ -125,3 +125,61 @@ def test_password_comes_from_pgpassfile_never_the_url(pg_cluster, company, tmp_p
     finally:
         hba.write_text(original)
         pg_cluster.admin("SELECT pg_reload_conf()")
+
+
+def test_leases_only_of_their_own_jobs_in_a_raw_sql_session(cli, company):
+    """Leases follow the jobs' row-level security (PostgreSQL step 6): as alice, in a raw
+    SQL session, bob's lease is not seen, and cannot be taken, changed or given back; her
+    own she may take and give back. The reviewer and the office see both."""
+    from commission.register.lease import Lease
+
+    mine = _job_for(cli, company, "alice", "Larch House")
+    theirs = _job_for(cli, company, "bob", "Quay Cottage")
+    with PostgresRegister(company["bob"]) as bob:
+        Lease(bob, bob.find_job(theirs), device="dev-bob").__enter__()  # left held
+    with PostgresRegister(company["rita"]) as rita:
+        uuids = {s: rita.find_job(s).uuid for s in (mine, theirs)}
+    with psycopg.connect(company["alice"], autocommit=True) as alice:
+        assert alice.execute("SELECT count(*) FROM leases").fetchone()[0] == 0
+        with pytest.raises(psycopg.errors.InsufficientPrivilege):  # WITH CHECK
+            alice.execute("INSERT INTO leases VALUES (%s, 'dev-a', 'alice', 'x', 'y')",
+                          (uuids[theirs],))
+        for sql in ("UPDATE leases SET expires = '2000-01-01T00:00:00.000Z'",
+                    "UPDATE leases SET device_id = 'dev-a' WHERE job_uuid = %s",
+                    "DELETE FROM leases WHERE job_uuid = %s"):
+            done = alice.execute(sql, (uuids[theirs],) if "%s" in sql else None)
+            assert done.rowcount == 0
+        alice.execute("INSERT INTO leases VALUES (%s, 'dev-a', 'alice', 'x', 'y')",
+                      (uuids[mine],))
+        assert alice.execute("SELECT job_uuid FROM leases").fetchall() == [(uuids[mine],)]
+        assert alice.execute("DELETE FROM leases WHERE job_uuid = %s",
+                             (uuids[mine],)).rowcount == 1
+        alice.execute("INSERT INTO leases VALUES (%s, 'dev-a', 'alice', 'x', 'y')",
+                      (uuids[mine],))
+    for who in ("rita", "olga"):
+        with psycopg.connect(company[who], autocommit=True) as staff:
+            held = {r[0]: (r[1], r[2]) for r in
+                    staff.execute("SELECT job_uuid, device_id, expires FROM leases")}
+            assert set(held) == {uuids[mine], uuids[theirs]}
+            assert held[uuids[theirs]][0] == "dev-bob"
+            assert held[uuids[theirs]][1] > "2026"  # untouched by alice's update
+
+
+def test_an_installer_still_leases_their_own_job(cli, company):
+    """Under the leases' row-level security an installer's own job is still leased as
+    before: a second device is refused naming the first, an expired lease is taken over
+    only when asked (the row updated in place), and given back."""
+    from commission.errors import UserError
+    from commission.register.lease import Lease
+
+    mine = _job_for(cli, company, "alice", "Larch House")
+    with PostgresRegister(company["alice"]) as alice:
+        job = alice.find_job(mine)
+        Lease(alice, job, device="dev-van-1", hours=-1).__enter__()  # expired, left held
+        with pytest.raises(UserError, match="dev-van-1.*--take-over"):
+            Lease(alice, job, device="dev-van-2").__enter__()
+        with Lease(alice, job, device="dev-van-2", take_over=True):
+            assert alice._x("SELECT device_id FROM leases").fetchall() == [("dev-van-2",)]
+            with pytest.raises(UserError, match="dev-van-2"):
+                Lease(alice, job, device="dev-van-3").__enter__()
+        assert alice._x("SELECT count(*) FROM leases").fetchone()[0] == 0

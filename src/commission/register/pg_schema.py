@@ -11,7 +11,7 @@ prefixes that keep short job ids unique across a company's laptops.
 
 from __future__ import annotations
 
-PG_SCHEMA_VERSION = 5
+PG_SCHEMA_VERSION = 6
 
 PG_MIGRATIONS: dict[int, str] = {
     1: """
@@ -313,5 +313,17 @@ PG_MIGRATIONS: dict[int, str] = {
     ALTER TABLE jobs ADD COLUMN baseline TEXT NOT NULL DEFAULT '';
     ALTER TABLE jobs ADD COLUMN record_sha256 TEXT NOT NULL DEFAULT '';
     ALTER TABLE entries ADD COLUMN carried TEXT;
+    """,
+    # 6: leases follow the jobs' row-level security, as entries and conflicts do: an
+    # installer sees, takes, renews and gives back only the leases of jobs assigned to
+    # them (before this, any installer could read who walks which job of the company);
+    # reviewers and the office see and manage every lease.
+    6: """
+    ALTER TABLE leases ENABLE ROW LEVEL SECURITY;
+    CREATE POLICY installer_own ON leases TO commission_installer
+        USING (job_uuid IN (SELECT uuid FROM jobs WHERE assigned_to = current_user))
+        WITH CHECK (job_uuid IN (SELECT uuid FROM jobs WHERE assigned_to = current_user));
+    CREATE POLICY staff_all ON leases TO commission_reviewer, commission_office
+        USING (true);
     """,
 }
