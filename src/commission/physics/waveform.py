@@ -559,32 +559,76 @@ class CaptureAccumulator:
         d = x[k : x.size - k] - _centred_mean(x, self._len_dc)
         y = _centred_mean(d, self._len_lp)
         h = self._hyst
-        state = np.zeros(y.size, dtype=np.int8)
-        state[y < -h] = -1
-        state[y > h] = 1
-        last = np.where(state != 0, np.arange(y.size), -1)
-        np.maximum.accumulate(last, out=last)
-        filled = np.where(last >= 0, state[np.maximum(last, 0)], self._state)
-        before = np.empty_like(filled)
-        before[0] = self._state
-        before[1:] = filled[:-1]
-        events = np.flatnonzero((filled == 1) & (before == -1))
-        y_before = np.empty_like(y)
-        y_before[0] = y[0] if self._last_y is None else self._last_y
-        y_before[1:] = y[:-1]
-        up = np.flatnonzero((y_before < 0) & (y >= 0))
-        up_pos = a + up - 1 + y_before[up] / (y_before[up] - y[up])
+        # Hysteresis: the state is +1 above h, -1 below -h and otherwise the last of those;
+        # a crossing is counted where it turns from -1 to +1, that is at an entry above h
+        # whose latest earlier entry (above h or below -h) was below -h.
+        above = y > h
+        below = y < -h
+        rises = _entries(above)
+        falls = _entries(below)
+        fall_at = np.full(rises.size, -1, dtype=np.intp)  # latest fall before each rise
+        if falls.size:
+            last_fall = np.searchsorted(falls, rises) - 1
+            fall_at[last_fall >= 0] = falls[last_fall[last_fall >= 0]]
+        rise_before = np.empty_like(rises)
+        rise_before[:1] = -1
+        rise_before[1:] = rises[:-1]
+        after_fall = fall_at > rise_before
+        if rises.size and fall_at[0] < 0 and self._state == -1:
+            after_fall[0] = True  # the state carried from the last block was -1
+        events = rises[after_fall]
+        if rises.size or falls.size:
+            self._state = 1 if (rises[-1] if rises.size else -1) > (
+                falls[-1] if falls.size else -1) else -1
+        # rising zero crossings of y, interpolated between the samples either side
+        negative = y < 0
+        up = np.flatnonzero(negative[:-1] & ~negative[1:]) + 1
+        prev = y[up - 1]
+        if self._last_y is not None and self._last_y < 0 and y[0] >= 0:
+            up = np.concatenate(([0], up))
+            prev = np.concatenate(([self._last_y], prev))
+        up_pos = a + up - 1 + prev / (prev - y[up])
+        # each counted crossing is at the latest zero crossing of y up to it (from an
+        # earlier block when there is none yet in this one)
         last_up = np.searchsorted(up, events, side="right") - 1
-        for j in last_up.tolist():
-            pos = up_pos[j] if j >= 0 else self._last_zero
-            if pos is not None:
-                self._crossing(float(pos))
-        self._state = int(filled[-1])
+        positions = up_pos[np.maximum(last_up, 0)] if up.size else np.zeros(events.size)
+        earlier = last_up < 0
+        if earlier.any():
+            if self._last_zero is None:
+                positions = positions[~earlier]
+            else:
+                positions[earlier] = self._last_zero
+        self._crossings(positions)
         self._last_y = float(y[-1])
         if up.size:
             self._last_zero = float(up_pos[-1])
         self._y_next = b
         self._flush()
+
+    def _crossings(self, positions):
+        """Take rising zero crossings, in order: all at once when every cycle is regular."""
+        if not positions.size:
+            return
+        if self._open:
+            chain = np.concatenate(([self._open[-1]], positions))
+            gaps = np.diff(chain)
+            jumps = np.abs(np.diff(gaps))
+            if self._last_gap:
+                jumps = np.concatenate(([abs(gaps[0] - self._last_gap)], jumps))
+            period = self._period
+            if (gaps.min() >= _CYCLE_MIN_RATIO * period
+                    and gaps.max() <= _CYCLE_MAX_RATIO * period
+                    and not (jumps.size and jumps.max() > _CYCLE_STEP * period)):
+                self._last_gap = float(gaps[-1])
+                open_ = self._open + positions.tolist()
+                wc = self._window_cycles
+                done = (len(open_) - 1) // wc
+                for k in range(done):
+                    self._window(open_[k * wc], open_[(k + 1) * wc], wc)
+                self._open = open_[done * wc :]
+                return
+        for pos in positions.tolist():
+            self._crossing(pos)
 
     def _crossing(self, pos):
         if self._open:
@@ -796,10 +840,22 @@ def _powers(base, count):
     return out
 
 
+def _entries(mask):
+    """Indices where ``mask`` turns true (index 0 included when it starts true)."""
+    starts = np.flatnonzero(mask[1:] & ~mask[:-1]) + 1
+    if mask.size and mask[0]:
+        starts = np.concatenate(([0], starts))
+    return starts
+
+
 def _centred_mean(x, length):
     """Moving mean over ``length`` (odd) samples, only where the window is complete."""
-    c = np.concatenate(([0.0], np.cumsum(x)))
-    return (c[length:] - c[:-length]) / length
+    c = np.empty(x.size + 1)
+    c[0] = 0.0
+    np.cumsum(x, out=c[1:])
+    out = np.subtract(c[length:], c[:-length])
+    out /= length
+    return out
 
 
 def analyse(time_s_or_rate_hz, voltage_v, current_a, *, window_cycles=None,
