@@ -609,7 +609,10 @@ class CaptureAccumulator:
         """Take rising zero crossings, in order: all at once when every cycle is regular."""
         if not positions.size:
             return
-        if self._open:
+        if not self._open:  # the very first crossing
+            self._crossing(float(positions[0]))
+            positions = positions[1:]
+        if self._open and positions.size:
             chain = np.concatenate(([self._open[-1]], positions))
             gaps = np.diff(chain)
             jumps = np.abs(np.diff(gaps))
