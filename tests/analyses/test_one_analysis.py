@@ -251,3 +251,20 @@ def test_acceptance_shaped_files_agree_between_analyse_and_check(cli, walked, tm
             # true maximum 24 + 42 = 66 °C → 88.4 °C at the demo's worst case, over the
             # 85 °C limit: a short log may be review or fail, never pass
             assert data["verdict"] != "pass", data["reason"]
+
+
+def test_resolution_step_agrees_with_numpy_unique():
+    """The capture's resolution (smallest step between distinct readings) against the
+    textbook way: numpy.unique, then the smallest difference."""
+    import numpy as np
+
+    from commission.analyses.capture import _quantum
+
+    rng = np.random.default_rng(11)
+    for step in (0.001, 0.0125, 0.5):
+        x = np.round(rng.normal(0.0, 3.0, 5000) / step) * step
+        x[:7] = -0.0  # signed zeros count as one value, as in numpy.unique
+        v = np.unique(x)
+        assert _quantum(x) == float(np.min(np.diff(v)))
+    assert _quantum(np.array([1.0, 1.0, 2.0, 2.0])) == 0.0  # two distinct values
+    assert _quantum(np.array([1.0, 2.0, 4.0])) == 1.0
