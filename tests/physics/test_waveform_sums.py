@@ -1,4 +1,4 @@
-"""The fast window sums of the capture analysis against a straightforward reference.
+"""The fast paths of the capture analysis against straightforward references.
 
 Reference: for each window and each harmonic order h, the sums
 ``sum_n w[n]*x[n]*cos(h*theta*(n - pa))`` and ``... sin(...)`` written out directly with
@@ -150,3 +150,26 @@ def test_crossings_taken_together_as_one_by_one(monkeypatch, glitches):
     slow = analyse(RATE, v, i)
     assert (fast.irregular_cycles > 0) == (glitches > 0)
     assert dataclasses.asdict(fast) == dataclasses.asdict(slow)
+
+
+def test_frequency_grid_of_the_sine_fit_matches_direct_cosines():
+    """The sine fit's coarse search builds the sines of its evenly spaced trial frequencies
+    by multiplication; the explained energies must be those of numpy's cos and sin of
+    every frequency and time (the straightforward form), to 1e-12."""
+    v, _ = _capture(0.25, seed=4)
+    t = np.arange(v.size) / RATE
+    t -= t.mean()
+    x = v - v.mean()
+    grid = np.arange(40.0, 70.0 + 0.125, 0.25)
+    for k in range(0, grid.size, 64):
+        freqs = grid[k:k + 64]
+        fast = waveform._grid_explained(t, x, freqs, 0.25)
+        direct = []
+        for f in freqs:
+            c, s = np.cos(2 * np.pi * f * t), np.sin(2 * np.pi * f * t)
+            basis = np.column_stack([c, s, np.ones_like(t)])
+            coef = np.linalg.lstsq(basis, x, rcond=None)[0]
+            direct.append(float((basis @ coef) @ x))
+        assert np.allclose(fast, direct, rtol=1e-9, atol=1e-12 * float(x @ x))
+    assert abs(grid[np.argmax(np.concatenate([waveform._grid_explained(
+        t, x, grid[k:k + 64], 0.25) for k in range(0, grid.size, 64)]))] - F) <= 0.125

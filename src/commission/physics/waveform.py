@@ -151,7 +151,7 @@ def fit_mains_sine(sample_rate_hz, samples, *, max_duration_s=0.5):
     grid_step = min(0.25, 1.0 / (8.0 * duration_s))
     grid = np.arange(_F_MIN_HZ, _F_MAX_HZ + grid_step / 2, grid_step)
     explained = np.concatenate(
-        [_sine_explained(t, xc, grid[k : k + 64])[0] for k in range(0, grid.size, 64)]
+        [_grid_explained(t, xc, grid[k : k + 64], grid_step) for k in range(0, grid.size, 64)]
     )
     best = int(np.argmax(explained))
     lo = max(_F_MIN_HZ, grid[best] - grid_step)
@@ -181,22 +181,43 @@ def fit_mains_sine(sample_rate_hz, samples, *, max_duration_s=0.5):
 def _sine_explained(t, x, freqs):
     """Energy of ``x`` explained by [cos, sin, 1] at each frequency, and the coefficients."""
     w = (2.0 * math.pi) * freqs[:, None] * t[None, :]
-    c = np.cos(w)
-    s = np.sin(w)
-    n = float(t.size)
+    return _explained_cs(np.cos(w), np.sin(w), x)
+
+
+def _grid_explained(t, x, freqs, step):
+    """:func:`_sine_explained` energies at evenly spaced ``freqs`` (``step`` apart): the
+    sines of the first frequency times powers of the sine of ``step``, by block doubling,
+    instead of a cosine and a sine of every frequency and time."""
+    rows = np.empty((freqs.size, t.size), dtype=complex)
+    rows[0] = np.exp((2j * math.pi * freqs[0]) * t)
+    power = np.exp((2j * math.pi * step) * t)  # e^(i*2*pi*step*t) ** k, k = 1, 2, 4, ...
+    k = 1
+    while k < freqs.size:
+        m = min(k, freqs.size - k)
+        np.multiply(rows[:m], power, out=rows[k : k + m])
+        power = power * power
+        k += m
+    return _explained_cs(np.ascontiguousarray(rows.real), np.ascontiguousarray(rows.imag),
+                         x)[0]
+
+
+def _explained_cs(c, s, x):
+    """Energy of ``x`` explained by [c, s, 1] for each row of ``c`` and ``s``, and the
+    coefficients."""
+    n = float(c.shape[1])
     cc = np.einsum("ij,ij->i", c, c)
     ss = np.einsum("ij,ij->i", s, s)
     cs = np.einsum("ij,ij->i", c, s)
     c1 = c.sum(axis=1)
     s1 = s.sum(axis=1)
-    mat = np.empty((freqs.size, 3, 3))
+    mat = np.empty((c.shape[0], 3, 3))
     mat[:, 0, 0] = cc
     mat[:, 0, 1] = mat[:, 1, 0] = cs
     mat[:, 0, 2] = mat[:, 2, 0] = c1
     mat[:, 1, 1] = ss
     mat[:, 1, 2] = mat[:, 2, 1] = s1
     mat[:, 2, 2] = n
-    rhs = np.stack((c @ x, s @ x, np.full(freqs.size, x.sum())), axis=1)
+    rhs = np.stack((c @ x, s @ x, np.full(c.shape[0], x.sum())), axis=1)
     beta = np.linalg.solve(mat, rhs[:, :, None])[:, :, 0]
     return np.einsum("ij,ij->i", rhs, beta), beta
 
