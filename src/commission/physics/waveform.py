@@ -813,23 +813,25 @@ def _window_sums(v, i, first, pa, pb, cycles, orders):
     span = int(size.max())
     step = int(math.ceil(math.sqrt(span)))
     blocks = -(-span // step)
-    lo = n_lo - first
-    if int(lo.max()) + span > v.size:  # never for windows found by the tracker
-        pad = int(lo.max()) + span - v.size
-        v = np.concatenate([v, np.zeros(pad)])
-        i = np.concatenate([i, np.zeros(pad)])
-    rows_v = np.lib.stride_tricks.sliding_window_view(v, span)[lo]
-    rows_i = np.lib.stride_tricks.sliding_window_view(i, span)[lo]
-    w = np.ones((count, span))
-    w[:, 0] = _overlap(n_lo.astype(float), pa, pb)
-    w[np.arange(count), size - 1] = _overlap(n_hi.astype(float), pa, pb)
-    w[np.arange(span) >= size[:, None]] = 0.0
+    # y[k, 0] and y[k, 1]: the samples of window k, zero after its last one
     y = np.zeros((count, 2, blocks * step))
-    wv = np.multiply(w, rows_v, out=y[:, 0, :span])
-    wi = np.multiply(w, rows_i, out=y[:, 1, :span])
-    sv2 = np.einsum("ij,ij->i", wv, rows_v)
-    si2 = np.einsum("ij,ij->i", wi, rows_i)
-    svi = np.einsum("ij,ij->i", wv, rows_i)
+    for k, (lo, n) in enumerate(zip((n_lo - first).tolist(), size.tolist(), strict=True)):
+        y[k, 0, :n] = v[lo : lo + n]
+        y[k, 1, :n] = i[lo : lo + n]
+    # the sums over the whole samples, less the parts of the two end samples outside the
+    # window (weights 1 inside, the overlaps at the ends)
+    rows = np.arange(count)
+    w_first = _overlap(n_lo.astype(float), pa, pb)
+    w_last = _overlap(n_hi.astype(float), pa, pb)
+    first_xy = y[:, :, 0].copy()  # (count, 2)
+    last_xy = y[rows, :, size - 1]
+    sv2, si2, svi = (
+        np.einsum("ij,ij->i", y[:, a], y[:, b])
+        - (1.0 - w_first) * first_xy[:, a] * first_xy[:, b]
+        - (1.0 - w_last) * last_xy[:, a] * last_xy[:, b]
+        for a, b in ((0, 0), (1, 1), (0, 1)))
+    y[:, :, 0] *= w_first[:, None]
+    y[rows, :, size - 1] *= w_last[:, None]
 
     length = pb - pa
     theta = (2.0 * math.pi) * cycles / length
