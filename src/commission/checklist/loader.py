@@ -8,6 +8,7 @@ with ``-`` where a problem belongs to no item. YAML is read with the safe loader
 from __future__ import annotations
 
 import hashlib
+from collections import OrderedDict
 from collections.abc import Mapping
 from dataclasses import dataclass
 from pathlib import Path
@@ -210,6 +211,15 @@ def _measure(root: yaml.Node, name: str) -> None:
     size(root, 0)
 
 
+# Checklists already validated in this process, by (text, name, strict, registry): a job's
+# stored text is parsed each time the job is opened, and an included checklist once per
+# section it lends (a three-phase checklist read its single-phase one six times). The
+# result is a frozen model, so it is shared. Only successes are kept, a few at a time,
+# each with its registry (the key holds the registry's id, so the registry is kept alive).
+_PARSED: OrderedDict[tuple[str, str, bool, int], tuple[Registry, Loaded]] = OrderedDict()
+_PARSED_MAX = 16
+
+
 def parse(text: str, name: str, *, checks: Registry, strict: bool = False) -> Loaded:
     """Validate checklist text; raise ChecklistError listing every problem.
 
@@ -217,6 +227,19 @@ def parse(text: str, name: str, *, checks: Registry, strict: bool = False) -> Lo
     for checklists in use from now on (a file given to ``new`` or ``validate``): every
     critical measured reading has a check. A job's stored checklist text is parsed without
     them, so jobs started on an older checklist keep opening."""
+    key = (text, name, strict, id(checks))
+    hit = _PARSED.get(key)
+    if hit is not None and hit[0] is checks:
+        _PARSED.move_to_end(key)
+        return hit[1]
+    loaded = _parse(text, name, checks=checks, strict=strict)
+    _PARSED[key] = (checks, loaded)
+    while len(_PARSED) > _PARSED_MAX:
+        _PARSED.popitem(last=False)
+    return loaded
+
+
+def _parse(text: str, name: str, *, checks: Registry, strict: bool) -> Loaded:
     from pydantic import ValidationError
 
     problems: list[Problem] = []
@@ -472,7 +495,8 @@ def _compose(text: str, path: Path, stack: tuple[Path, ...], checks: Registry
     problems: list[Problem] = []
     replacements: list[tuple[int, int, list[str], list[tuple[str, int]]]] = []
     me = path.resolve()
-    for entry in sections.value:
+    composed: dict[str, yaml.Node] = {}  # each included text composed once, however many
+    for entry in sections.value:        # of its sections are lent
         if not isinstance(entry, yaml.MappingNode):
             continue
         keys = {k.value: v for k, v in entry.value if isinstance(k, yaml.ScalarNode)}
@@ -515,7 +539,9 @@ def _compose(text: str, path: Path, stack: tuple[Path, ...], checks: Registry
         included = _load(target, (*stack, me), checks, True)
         inc_text = included.text
         inc_lines = inc_text.splitlines()
-        inc_root = yaml.compose(inc_text, Loader=_COMPOSER)
+        inc_root = composed.get(inc_text)
+        if inc_root is None:
+            inc_root = composed[inc_text] = yaml.compose(inc_text, Loader=_COMPOSER)
         inc_sections = next(v for k, v in inc_root.value if k.value == "sections")
         found = None
         for node in inc_sections.value:
