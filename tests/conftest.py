@@ -8,6 +8,18 @@ import os
 # before any test module imports numpy ahead of commission.
 for _name in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
     os.environ.setdefault(_name, "1")
+import sys
+import tempfile
+
+# With PYTHONDONTWRITEBYTECODE set (to keep __pycache__ folders out of the tree), every
+# pytest worker compiled and assertion-rewrote every test module and compiled the package
+# afresh: half of the collection time. The test session then keeps its bytecode under a
+# prefix outside the tree instead (PYTHONPYCACHEPREFIX, which the CLI subprocesses read
+# too); a prefix set by the developer is left as it is.
+if sys.dont_write_bytecode and sys.pycache_prefix is None:
+    sys.pycache_prefix = os.path.join(tempfile.gettempdir(), f"commission-pycache-{os.getuid()}")
+    sys.dont_write_bytecode = False
+    os.environ["PYTHONPYCACHEPREFIX"] = sys.pycache_prefix
 import shutil
 from pathlib import Path
 
