@@ -842,8 +842,9 @@ def _window_sums(v, i, first, pa, pb, cycles, orders):
     y_t = y.reshape(count, 2, blocks, step).transpose(0, 1, 3, 2)
     inner = np.matmul(y_t, big.view(float)[:, None]).view(complex)
     sums = np.einsum("ksbh,kbh->ksh", inner, small)
-    shift = np.exp(-1j * (theta[:, None] * h) * (n_lo - pa)[:, None]) * (2.0 / length)[:, None]
-    sums *= shift[:, None, :]
+    # the sums above count from sample n_lo; the phase from pa, and the scale to peak values
+    shift = _powers(np.exp(-1j * theta * (n_lo - pa))[:, None], orders + 1)[:, 1:, 0]
+    sums *= (shift * (2.0 / length)[:, None])[:, None, :]
     return sv2, si2, svi, sums[:, 0], sums[:, 1]
 
 
