@@ -328,3 +328,26 @@ def test_large_file_travels_by_hash_only(cli, new_job, tmp_path, monkeypatch):
     listing = _run("pdfdetach", "-list", out).stdout
     assert "commission-record.json" in listing
     assert digest not in listing
+
+
+@pytest.mark.parametrize("which", ["demo", "format-1"])
+def test_page_words_and_rules_are_pdfplumbers_own(demo_record, which):
+    """The page check's shortcut to words and rules gives what pdfplumber's full
+    ``extract_words`` and ``lines`` give (first, second and last page of a record)."""
+    import pdfplumber
+
+    from commission.report.pages import _Word, page_words_and_rules
+
+    path = demo_record if which == "demo" else Path(__file__).parent.parent / "data" / \
+        "record-v1.pdf"
+    with pdfplumber.open(path) as pdf:
+        pages = [pdf.pages[0], pdf.pages[1], pdf.pages[-1]]
+        for page in pages:
+            words, rules = page_words_and_rules(page)
+            full = [_Word(w["text"], float(w["x0"]), float(w["top"]), float(w["bottom"]))
+                    for w in page.extract_words(keep_blank_chars=False)]
+            assert len(full) > 50 and words == full, page.page_number
+            tops = sorted({round(float(ln["top"]), 1) for ln in page.lines
+                           if abs(float(ln["top"]) - float(ln["bottom"])) < 0.5})
+            assert rules == tops, page.page_number
+        assert any(len(page_words_and_rules(p)[1]) > 5 for p in pages)  # tables have rules

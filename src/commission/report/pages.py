@@ -81,8 +81,7 @@ def check_pages(stream: IO[bytes], record, record_sha: str, results,
     with pdfplumber.open(stream) as pdf:
         total = len(pdf.pages)
         for n, page in enumerate(pdf.pages, start=1):
-            words = [_Word(w["text"], float(w["x0"]), float(w["top"]), float(w["bottom"]))
-                     for w in page.extract_words(keep_blank_chars=False)]
+            words, lines = page_words_and_rules(page)
             flat = "".join(w.text for w in words)
             where = f"page {n} of {total}"
             if f"Job{_flat(short)}·recordSHA-256{record_sha}" not in flat:
@@ -101,8 +100,6 @@ def check_pages(stream: IO[bytes], record, record_sha: str, results,
             if n == 1 and (status not in stated or _flat(_STATUS_WORDS[status]) not in flat):
                 raise PageMismatch(f"page 1 does not state the record's status {status}")
             uuid_seen = uuid_seen or uuid in flat
-            lines = sorted({round(float(ln["top"]), 1) for ln in page.lines
-                            if abs(float(ln["top"]) - float(ln["bottom"])) < 0.5})
             for item_id, verdict_cell, answer_cell in _table_rows(words, lines, rows):
                 answer, verdict = rows[item_id]
                 seen.add(item_id)
@@ -118,6 +115,48 @@ def check_pages(stream: IO[bytes], record, record_sha: str, results,
     if missing:
         raise PageMismatch(f"no results table on the pages shows item {missing[0]}"
                            + (f" (and {len(missing) - 1} more)" if len(missing) > 1 else ""))
+
+
+def page_words_and_rules(page) -> tuple[list[_Word], list[float]]:
+    """A pdfplumber page's words (as ``page.extract_words(keep_blank_chars=False)`` finds
+    them) and the tops of its horizontal rules (``page.lines`` less than 0.5 pt tall),
+    sorted and rounded to 0.1 pt.
+
+    pdfplumber's own ``page.chars`` and ``page.lines`` copy and resolve every attribute of
+    every layout object (colours, fonts, matrices), half the time of a record's check; only
+    the positions and texts are needed, so they are taken from the same layout objects with
+    pdfplumber's arithmetic (page height and MediaBox origin) and grouped into words by
+    pdfplumber's own ``utils.extract_words``. A test compares both on a signed record."""
+    from unicodedata import normalize as normalize_unicode
+
+    from pdfminer.layout import LTChar, LTContainer, LTLine
+    from pdfplumber.utils import extract_words
+
+    height = page.height
+    mb_x0, mb_top = page.mediabox[:2]
+    doctop = page.initial_doctop
+    norm = page.pdf.unicode_norm
+    chars: list[dict[str, Any]] = []
+    rules: set[float] = set()
+
+    def walk(objs) -> None:
+        for obj in objs:
+            if isinstance(obj, LTContainer):
+                walk(obj)
+            elif isinstance(obj, LTChar):
+                text = obj.get_text()
+                top = (height - obj.y1) + mb_top
+                chars.append({"text": text if norm is None else normalize_unicode(norm, text),
+                              "x0": obj.x0 + mb_x0, "x1": obj.x1 + mb_x0, "top": top,
+                              "bottom": (height - obj.y0) + mb_top, "doctop": doctop + top,
+                              "upright": obj.upright})
+            elif type(obj) is LTLine and abs(obj.y1 - obj.y0) < 0.5:
+                rules.add(round(float((height - obj.y1) + mb_top), 1))
+
+    walk(page.layout)
+    words = [_Word(w["text"], float(w["x0"]), float(w["top"]), float(w["bottom"]))
+             for w in extract_words(chars, keep_blank_chars=False)]
+    return words, sorted(rules)
 
 
 def _table_rows(words: list[_Word], lines: list[float], rows: dict[str, Any]):
