@@ -171,6 +171,64 @@ def test_sync_twice_copies_nothing(tmp_path, pg_url):
         assert later.short_id.startswith(prefix) and len(later.short_id) == 6
 
 
+def _portable_rows(n: int) -> list[tuple]:
+    return [(f"00000000-0000-4000-8000-{k:012d}", "supply.voltage", "answer", str(230 + k),
+             str(230.0 + k), "V", None, f"2026-05-02T10:00:{k:02d}.000Z", "t", "dev-x", None)
+            for k in range(n)]
+
+
+def test_batches_are_whole_when_the_server_dies_while_the_next_is_read(pg_url):
+    """The company register inserts and commits a batch while the next one is read from
+    the laptop (pipelined). Killing the server's process during that read leaves the
+    batch in flight committed whole or not at all, the sync stops with one line, and a
+    sync afterwards ends with every entry exactly once (the UUIDs counted on the server)."""
+    rows = _portable_rows(6)
+    office = _open_pg(pg_url)
+    job = office.create_job(load(CHECKLIST, checks=CHECKS), {"site": "Larch House"})
+
+    def batches():
+        yield rows[:3]
+        os.kill(office.conn.info.backend_pid, signal.SIGKILL)
+        time.sleep(0.2)
+        yield rows[3:]
+
+    done: list[int] = []
+    with pytest.raises(RegisterError) as err:
+        done.extend(office.insert_entry_batches(job, batches()))
+    assert "\n" not in str(err.value) and "connection" in str(err.value)
+    office.close()
+    office = _open_pg(pg_url)
+    kept = sorted(_uuids_pg(pg_url))
+    assert kept in ([], [r[0] for r in rows[:3]])
+    assert done in ([], [3]) and sum(done) == len(kept)
+    again = list(office.insert_entry_batches(job, iter([rows[:3], rows[3:]])))
+    assert sum(again) == 6 - len(kept)
+    uuids = _uuids_pg(pg_url)
+    assert sorted(uuids) == [r[0] for r in rows] and len(uuids) == len(set(uuids))
+    office.close()
+    _pg_consistent(pg_url)
+
+
+def test_a_laptop_read_failing_keeps_the_batch_already_sent(pg_url):
+    """When reading the next batch fails, the batch already sent is committed and
+    counted before the failure is raised."""
+    rows = _portable_rows(4)
+    with PostgresRegister(pg_url) as office:
+        job = office.create_job(load(CHECKLIST, checks=CHECKS), {"site": "Larch House"})
+
+        def batches():
+            yield rows[:2]
+            raise OSError("laptop register unreadable")
+
+        done: list[int] = []
+        with pytest.raises(OSError, match="unreadable"):
+            done.extend(office.insert_entry_batches(job, batches()))
+        assert done == [2]
+        assert [e.uuid for e in office.entries(job)] == [r[0] for r in rows[:2]]
+        # the connection is usable afterwards, outside any transaction
+        assert list(office.insert_entry_batches(job, iter([rows]))) == [2]
+
+
 @pytest.mark.slow
 @pytest.mark.parametrize("order", ["ab", "ba"])
 def test_sync_survives_the_server_killed_at_random_points(tmp_path, pg_url, order):

@@ -14,7 +14,7 @@ import hashlib
 import json
 import secrets
 import uuid as uuidlib
-from collections.abc import Iterator
+from collections.abc import Callable, Iterable, Iterator
 from pathlib import Path
 from typing import Any
 
@@ -60,6 +60,18 @@ _ADD_ENTRY = (
     " LEFT JOIN LATERAL (SELECT id FROM entries WHERE job_id = %(job)s AND item_id = %(item)s"
     " ORDER BY at DESC, uuid DESC LIMIT 1) p ON true"
     f" RETURNING {_ENTRY_COLS}")
+
+
+# A sync's rows (sync.ENTRY_FIELDS: the instrument by serial) and their INSERT from the
+# session's sync_in table: a union by UUID, the instrument's id looked up here.
+_PORTABLE = ("uuid", "item_id", "action", "raw", "value_json", "unit_typed", "serial", "at",
+             "by", "host", "read_with")
+_SYNC_INSERT = (
+    "INSERT INTO entries (uuid, job_id, item_id, action, raw, value_json, unit_typed,"
+    " instrument_id, at, by, host, read_with)"
+    " SELECT s.uuid, %s, s.item_id, s.action, s.raw, s.value_json, s.unit_typed, i.id, s.at,"
+    " s.by, s.host, s.read_with FROM sync_in s LEFT JOIN instruments i ON i.serial = s.serial"
+    " ON CONFLICT (uuid) DO NOTHING")
 
 
 def _password_in(url: str) -> bool:
@@ -535,26 +547,78 @@ class PostgresRegister:
     def insert_entries(self, job: Job, rows: list[tuple]) -> int:
         """Add portable entry rows (a union by UUID) in one transaction, through COPY into
         a temporary table, so a sync costs about what a bulk COPY costs."""
-        cols = ("uuid, item_id, action, raw, value_json, unit_typed, serial, at, by, host,"
-                " read_with")
-        with self._tx():
-            self._x("CREATE TEMP TABLE IF NOT EXISTS sync_in (uuid TEXT, item_id TEXT,"
+        with self._tx(), self.conn.cursor() as cur:
+            self._copy_in(cur, rows)
+            cur.execute(_SYNC_INSERT, (job.id,))
+            return cur.rowcount
+
+    def _copy_in(self, cur, rows: list[tuple]) -> None:
+        """The rows into this session's ``sync_in`` (emptied at every commit)."""
+        cur.execute("CREATE TEMP TABLE IF NOT EXISTS sync_in (uuid TEXT, item_id TEXT,"
                     " action TEXT, raw TEXT, value_json TEXT, unit_typed TEXT, serial TEXT,"
                     " at TEXT, by TEXT, host TEXT, read_with TEXT) ON COMMIT DELETE ROWS")
-            with self.conn.cursor() as cur:
-                with cur.copy(f"COPY sync_in ({cols}) FROM STDIN") as copy:
-                    for r in rows:
-                        copy.write_row(r)
-                if self.hook:
-                    self.hook("inside entries")
-                cur.execute(
-                    "INSERT INTO entries (uuid, job_id, item_id, action, raw, value_json,"
-                    " unit_typed, instrument_id, at, by, host, read_with)"
-                    " SELECT s.uuid, %s, s.item_id, s.action, s.raw, s.value_json,"
-                    " s.unit_typed, i.id, s.at, s.by, s.host, s.read_with FROM sync_in s"
-                    " LEFT JOIN instruments i ON i.serial = s.serial"
-                    " ON CONFLICT (uuid) DO NOTHING", (job.id,))
-                return cur.rowcount
+        with cur.copy(f"COPY sync_in ({', '.join(_PORTABLE)}) FROM STDIN") as copy:
+            for r in rows:
+                copy.write_row(r)
+        if self.hook:
+            self.hook("inside entries")
+
+    def insert_entry_batches(self, job: Job, batches: Iterable[list[tuple]],
+                             before: Callable[[list[tuple]], None] | None = None
+                             ) -> Iterator[int]:
+        """Add batches of portable rows, each batch one transaction (a union by UUID, as
+        ``insert_entries``), yielding each batch's count of new entries once it is
+        committed. ``before(rows)`` runs before a batch is sent, outside any transaction
+        (sync stores there the files the batch names).
+
+        Pipelined: a batch's rows go up by COPY; its INSERT and COMMIT are then sent
+        without waiting, and the next batch is read from ``batches`` (the laptop's
+        register) while the server inserts; the results are collected after that read.
+        A batch is therefore either committed whole or not at all, as before; only the
+        waiting overlaps."""
+        import psycopg
+
+        if (self.conn.info.transaction_status != psycopg.pq.TransactionStatus.IDLE
+                or not psycopg.Pipeline.is_supported()):  # inside batch(): no overlap
+            for rows in batches:
+                if before:
+                    before(rows)
+                yield self.insert_entries(job, rows)
+            return
+        source = iter(batches)
+        rows = next(source, None)
+        while rows is not None:
+            if before:
+                before(rows)
+            following: list[tuple] | None = None
+            failed: BaseException | None = None
+            try:
+                with self.conn.cursor() as cur:
+                    cur.execute("BEGIN")
+                    self._copy_in(cur, rows)
+                    with self.conn.pipeline():
+                        cur.execute(_SYNC_INSERT, (job.id,))
+                        self.conn.execute("COMMIT")
+                        try:  # the next batch read while the server works
+                            following = next(source, None)
+                        except BaseException as exc:  # after this batch's outcome
+                            failed = exc
+                    added = cur.rowcount
+            except psycopg.Error as exc:
+                self._rollback()
+                raise _register_error(self.location, exc) from None
+            yield added
+            if failed is not None:
+                raise failed
+            rows = following
+
+    def _rollback(self) -> None:
+        import psycopg
+
+        with contextlib.suppress(psycopg.Error):
+            if (self._conn is not None and not self._conn.closed and
+                    self._conn.info.transaction_status != psycopg.pq.TransactionStatus.IDLE):
+                self._conn.execute("ROLLBACK")
 
     def job_row(self, job: Job) -> dict[str, Any]:
         with self._tx(), self.conn.cursor() as cur:
@@ -608,6 +672,21 @@ class PostgresRegister:
     def backup(self, dest: Path) -> None:
         raise UserError(f"{self.location}: a company register is backed up on its server "
                         "(pg_dump); 'commission backup' copies a register file")
+
+
+def _register_error(location: str, exc: BaseException) -> RegisterError:
+    """A server refusal or a lost connection as one line naming the register."""
+    import psycopg
+
+    if isinstance(exc, psycopg.errors.InsufficientPrivilege):
+        return RegisterError(f"{location}: not allowed for this database role "
+                             f"({_first_line(exc)}); nothing was changed")
+    if isinstance(exc, psycopg.errors.RaiseException):
+        return RegisterError(f"{location}: refused ({_first_line(exc)}); nothing was changed")
+    if isinstance(exc, psycopg.OperationalError):
+        return RegisterError(f"{location}: the connection failed ({_first_line(exc)}); "
+                             "nothing unconfirmed was kept")
+    return RegisterError(f"{location}: {_first_line(exc)}; nothing unconfirmed was kept")
 
 
 def _first_line(exc: BaseException) -> str:

@@ -9,7 +9,7 @@ import, sync) talks to this protocol, so the same code and the same tests run on
 
 from __future__ import annotations
 
-from collections.abc import Iterator
+from collections.abc import Callable, Iterable, Iterator
 from contextlib import AbstractContextManager
 from pathlib import Path
 from typing import Any, Protocol, runtime_checkable
@@ -141,6 +141,13 @@ class RegisterEngine(Protocol):
 
     def insert_entries(self, job: Job, rows: list[tuple]) -> int:
         """Add portable rows, skipping UUIDs already here; one transaction."""
+
+    def insert_entry_batches(self, job: Job, batches: Iterable[list[tuple]],
+                             before: Callable[[list[tuple]], None] | None = None
+                             ) -> Iterator[int]:
+        """``insert_entries`` for each batch in turn, yielding each count once committed;
+        ``before(rows)`` runs first, outside any transaction. An engine may read the next
+        batch while the last is being written."""
 
     def job_row(self, job: Job) -> dict[str, Any]: ...
 

@@ -14,7 +14,7 @@ import os
 import secrets
 import sqlite3
 import uuid as uuidlib
-from collections.abc import Iterator
+from collections.abc import Callable, Iterable, Iterator
 from dataclasses import dataclass, field
 from datetime import UTC, datetime
 from pathlib import Path
@@ -759,6 +759,17 @@ class Register:
                 [(r[0], job.id, r[1], r[2], r[3], r[4], r[5], serials.get(r[6] or ""), r[7],
                   r[8], r[9], r[10]) for r in rows])
             return cur.rowcount  # rows inserted (the triggers' own changes not counted)
+
+    def insert_entry_batches(self, job: Job, batches: Iterable[list[tuple]],
+                             before: Callable[[list[tuple]], None] | None = None
+                             ) -> Iterator[int]:
+        """Batches of portable rows, each one transaction (``insert_entries``), yielding
+        each batch's count of new entries once committed; ``before(rows)`` runs before a
+        batch is written (sync stores there the files it names)."""
+        for rows in batches:
+            if before:
+                before(rows)
+            yield self.insert_entries(job, rows)
 
     def job_row(self, job: Job) -> dict[str, Any]:
         row = self.db.execute("SELECT * FROM jobs WHERE id = ?", (job.id,)).fetchone()

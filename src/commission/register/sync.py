@@ -136,8 +136,10 @@ def _jobs(local, remote, installer: str, report: SyncReport, mark: Hook) -> list
 def _files_named(rows: list[tuple]) -> set[str]:
     out = set()
     for r in rows:
+        if not r[4] or '"sha256"' not in r[4]:  # a file's value names its "sha256"
+            continue
         try:
-            value = json.loads(r[4]) if r[4] else None
+            value = json.loads(r[4])
         except ValueError:
             continue
         if isinstance(value, dict) and isinstance(value.get("sha256"), str):
@@ -170,18 +172,22 @@ def _job(local, here: Job, remote, there: Job, report: SyncReport, batch: int,
         remote.add_conflicts(known_here)
     report.conflicts += [c for c in local.conflicts(here) if not c["confirmed_at"]]
     mark("conflicts united")
-    # 4. files first, then entries in batches
+    # 4. files first, then entries in batches (a target may read the next batch while it
+    # writes the last: see insert_entry_batches)
     for source, sjob, target, tjob, uuids, kind in (
             (local, here, remote, there, only_mine, "pushed"),
             (remote, there, local, here, only_theirs, "pulled")):
-        for start in range(0, len(uuids), batch):
-            rows = source.entry_rows(sjob, uuids[start:start + batch])
+
+        def files_first(rows: list[tuple], source=source, target=target, kind=kind) -> None:
             for sha in sorted(_files_named(rows)):
                 if source.has_blob(sha) and not target.has_blob(sha):
                     target.put_stream(source.read_blob(sha))
                     setattr(report, f"files_{kind}", getattr(report, f"files_{kind}") + 1)
                     mark(f"file {kind}")
-            added = target.insert_entries(tjob, rows)
+
+        batches = (source.entry_rows(sjob, uuids[start:start + batch])
+                   for start in range(0, len(uuids), batch))
+        for added in target.insert_entry_batches(tjob, batches, before=files_first):
             setattr(report, f"entries_{kind}", getattr(report, f"entries_{kind}") + added)
             mark(f"entries {kind}")
 
