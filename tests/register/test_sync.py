@@ -209,6 +209,19 @@ def test_batches_are_whole_when_the_server_dies_while_the_next_is_read(pg_url):
     _pg_consistent(pg_url)
 
 
+def test_entries_that_arrived_meanwhile_are_skipped_not_doubled(pg_url):
+    """Another sync may store some of a batch's entries after this one looked: the batch
+    is then sent again skipping those, and each entry is on the server once."""
+    rows = _portable_rows(7)
+    with PostgresRegister(pg_url) as office:
+        job = office.create_job(load(CHECKLIST, checks=CHECKS), {"site": "Larch House"})
+        assert office.insert_entries(job, rows[1:3]) == 2  # the other sync's
+        counts = list(office.insert_entry_batches(job, iter([rows[:4], rows[4:]])))
+        assert counts == [2, 3]
+        uuids = _uuids_pg(pg_url)
+        assert sorted(uuids) == [r[0] for r in rows] and len(uuids) == len(set(uuids))
+
+
 def test_a_laptop_read_failing_keeps_the_batch_already_sent(pg_url):
     """When reading the next batch fails, the batch already sent is committed and
     counted before the failure is raised."""

@@ -66,12 +66,16 @@ _ADD_ENTRY = (
 # session's sync_in table: a union by UUID, the instrument's id looked up here.
 _PORTABLE = ("uuid", "item_id", "action", "raw", "value_json", "unit_typed", "serial", "at",
              "by", "host", "read_with")
-_SYNC_INSERT = (
+_SYNC_NEW = (
     "INSERT INTO entries (uuid, job_id, item_id, action, raw, value_json, unit_typed,"
     " instrument_id, at, by, host, read_with)"
     " SELECT s.uuid, %s, s.item_id, s.action, s.raw, s.value_json, s.unit_typed, i.id, s.at,"
-    " s.by, s.host, s.read_with FROM sync_in s LEFT JOIN instruments i ON i.serial = s.serial"
-    " ON CONFLICT (uuid) DO NOTHING")
+    " s.by, s.host, s.read_with FROM sync_in s LEFT JOIN instruments i ON i.serial = s.serial")
+# Rows that may already be here: each one's UUID is looked up first (a speculative insert:
+# about a quarter more server time than _SYNC_NEW on 10,000 entries). A sync sends only what
+# the register lacked when it looked, so it tries _SYNC_NEW first and falls back to this
+# when another sync got some of them there meanwhile.
+_SYNC_INSERT = _SYNC_NEW + " ON CONFLICT (uuid) DO NOTHING"
 
 
 def _password_in(url: str) -> bool:
@@ -575,7 +579,9 @@ class PostgresRegister:
         without waiting, and the next batch is read from ``batches`` (the laptop's
         register) while the server inserts; the results are collected after that read.
         A batch is therefore either committed whole or not at all, as before; only the
-        waiting overlaps."""
+        waiting overlaps. The INSERT expects new UUIDs (what the register lacked when
+        sync looked); if one arrived meanwhile, the batch is rolled back and sent again
+        skipping those (``insert_entries``)."""
         import psycopg
 
         if (self.conn.info.transaction_status != psycopg.pq.TransactionStatus.IDLE
@@ -597,13 +603,21 @@ class PostgresRegister:
                     cur.execute("BEGIN")
                     self._copy_in(cur, rows)
                     with self.conn.pipeline():
-                        cur.execute(_SYNC_INSERT, (job.id,))
+                        cur.execute(_SYNC_NEW, (job.id,))
                         self.conn.execute("COMMIT")
                         try:  # the next batch read while the server works
                             following = next(source, None)
                         except BaseException as exc:  # after this batch's outcome
                             failed = exc
                     added = cur.rowcount
+            except psycopg.errors.UniqueViolation:  # some arrived meanwhile: skip those
+                self._rollback()
+                try:
+                    added = self.insert_entries(job, rows)
+                except RegisterError:
+                    if failed is not None:
+                        raise failed from None
+                    raise
             except psycopg.Error as exc:
                 self._rollback()
                 raise _register_error(self.location, exc) from None
