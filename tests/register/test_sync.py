@@ -200,7 +200,9 @@ def test_batches_are_whole_when_the_server_dies_while_the_next_is_read(pg_url):
     office = _open_pg(pg_url)
     kept = sorted(_uuids_pg(pg_url))
     assert kept in ([], [r[0] for r in rows[:3]])
-    assert done in ([], [3]) and sum(done) == len(kept)
+    # a batch is counted only once its commit was confirmed; the server may have
+    # committed one whose confirmation the cut lost (the next sync skips it)
+    assert done in ([], [3]) and sum(done) <= len(kept)
     again = list(office.insert_entry_batches(job, iter([rows[:3], rows[3:]])))
     assert sum(again) == 6 - len(kept)
     uuids = _uuids_pg(pg_url)

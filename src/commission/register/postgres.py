@@ -596,8 +596,7 @@ class PostgresRegister:
         while rows is not None:
             if before:
                 before(rows)
-            following: list[tuple] | None = None
-            failed: BaseException | None = None
+            read: list = []  # [next batch or None, the exception reading it or None]
             try:
                 with self.conn.cursor() as cur:
                     cur.execute("BEGIN")
@@ -605,24 +604,18 @@ class PostgresRegister:
                     with self.conn.pipeline():
                         cur.execute(_SYNC_NEW, (job.id,))
                         self.conn.execute("COMMIT")
-                        try:  # the next batch read while the server works
-                            following = next(source, None)
-                        except BaseException as exc:  # after this batch's outcome
-                            failed = exc
+                        read = _read_next(source)  # while the server works
                     added = cur.rowcount
             except psycopg.errors.UniqueViolation:  # some arrived meanwhile: skip those
+                # (the refusal may come back before the next batch was read)
                 self._rollback()
-                try:
-                    added = self.insert_entries(job, rows)
-                except RegisterError:
-                    if failed is not None:
-                        raise failed from None
-                    raise
+                added = self.insert_entries(job, rows)
             except psycopg.Error as exc:
                 self._rollback()
                 raise _register_error(self.location, exc) from None
             yield added
-            if failed is not None:
+            following, failed = read or _read_next(source)
+            if failed is not None:  # raised after this batch's outcome
                 raise failed
             rows = following
 
@@ -686,6 +679,14 @@ class PostgresRegister:
     def backup(self, dest: Path) -> None:
         raise UserError(f"{self.location}: a company register is backed up on its server "
                         "(pg_dump); 'commission backup' copies a register file")
+
+
+def _read_next(source: Iterator[list[tuple]]) -> list:
+    """[the next batch or None at the end, None] or [None, what reading it raised]."""
+    try:
+        return [next(source, None), None]
+    except BaseException as exc:
+        return [None, exc]
 
 
 def _register_error(location: str, exc: BaseException) -> RegisterError:
