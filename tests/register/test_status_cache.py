@@ -103,12 +103,13 @@ def test_jobs_cli_pages_filters_and_refresh(cli, new_job, tmp_path):
 
 
 def test_jobs_loads_neither_units_nor_checks(new_job, register_path):
-    """Checked in a fresh interpreter on a register with a job."""
+    """Checked in a fresh interpreter on a register with a job; nor the record package
+    and its schema (pydantic): a listing prints escaped text without it."""
     new_job()
     code = ("import sys\nfrom commission.cli.app import main\n"
             f"main(['jobs', '--register', {str(register_path)!r}])\n"
-            "print(sorted(m for m in sys.modules if m == 'pint' or"
-            " m.startswith('commission.checks') or m == 'numpy'))")
+            "print(sorted(m for m in sys.modules if m in ('pint', 'numpy', 'pydantic') or"
+            " m.startswith(('commission.checks', 'commission.record'))))")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
                          check=True).stdout.strip().splitlines()
     assert out[-1] == "[]" and "incomplete" in out[0]

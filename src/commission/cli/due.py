@@ -23,7 +23,7 @@ def due(
     from ..due import ics as calendar
     from ..due import parse_today, parse_window
     from ..errors import UserError
-    from ..record import safe
+    from ..termtext import safe
 
     days = parse_window(within)
     day = parse_today(today)

@@ -133,7 +133,7 @@ def jobs(
             typer.echo("no jobs yet: start one with 'commission new --checklist NAME "
                        "--site TEXT'")
         return
-    from ..record import safe
+    from ..termtext import safe
 
     stale = 0
     for job, st, fresh in rows:
@@ -194,7 +194,7 @@ def show(
     import textwrap
 
     from ..present import plain_text
-    from ..record.text import CONTROL, _escape
+    from ..termtext import CONTROL, _escape
 
     def echo(text: str) -> None:
         # Job text may come from an imported record: controls are shown escaped.

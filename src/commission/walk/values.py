@@ -85,7 +85,7 @@ def parse_answer(item: Item, text: str, base: Path | None = None) -> Answer:
     raw = text.strip()
     if not raw:
         raise BadAnswer("empty answer")
-    from ..record.text import first_control
+    from ..termtext import first_control
 
     bad = first_control(raw, allow_newline=True)
     if bad:  # a record refuses them (ISO 6429 C0/C1), so they are refused when typed
