@@ -124,7 +124,8 @@ def flicker_capture(ctx: Context) -> Outcome:
         except (CaptureError, ValueError) as exc:
             return ValueError(str(exc))
 
-    result = ctx.memo(("flicker", value["sha256"], float(full), limit), run)
+    result = ctx.memo(("flicker", value["sha256"], float(full), limit,
+                       str(value.get("name", "capture"))), run, shared=True)
     if isinstance(result, Exception):
         raise result
     verdict = PASS if result.verdict == "pass" else FAIL

@@ -72,7 +72,8 @@ def file_analysis(ctx: Context, value: Any, kind: str, settings: Any, read: Any 
         except (CaptureError, ValueError) as exc:
             return ValueError(" ".join(str(exc).split()))
 
-    result = ctx.memo(("analysis", kind, value["sha256"], repr(settings), repr(read)), run)
+    result = ctx.memo(("analysis", kind, value["sha256"], repr(settings), repr(read), name),
+                      run, shared=name is not None)
     if isinstance(result, Exception):
         raise result
     return result

@@ -9,6 +9,7 @@ person can act on, and the source of the rule.
 
 from __future__ import annotations
 
+from collections import OrderedDict
 from collections.abc import Callable
 from dataclasses import dataclass, field
 from typing import Any
@@ -180,14 +181,31 @@ class Context:
             raise MissingFile(value.get("name", value["sha256"][:12]))
         return path
 
-    def memo(self, key: tuple, compute: Callable[[], Any]) -> Any:
-        """Reuse an expensive analysis of the same file within one file store."""
+    def memo(self, key: tuple, compute: Callable[[], Any], *, shared: bool = False) -> Any:
+        """Reuse an expensive analysis of the same file within one file store; with
+        ``shared``, also across the stores of this process (a command that walks, then
+        reports, then verifies opens the job three times). Only for keys that hold
+        everything the result depends on: the file's SHA-256, every setting, and the name
+        the result and its messages use (never a temporary path)."""
         files = self.extra.get("files")
         if files is None:
             return compute()
         if key not in files.memo:
-            files.memo[key] = compute()
+            if shared and key in _SHARED:
+                _SHARED.move_to_end(key)
+                files.memo[key] = _SHARED[key]
+            else:
+                files.memo[key] = compute()
+                if shared:
+                    _SHARED[key] = files.memo[key]
+                    while len(_SHARED) > _SHARED_MAX:
+                        _SHARED.popitem(last=False)
         return files.memo[key]
+
+
+# Analyses of recorded files shared by the file stores of one process (see Context.memo).
+_SHARED: OrderedDict[tuple, Any] = OrderedDict()
+_SHARED_MAX = 64
 
 
 class MissingFile(Exception):

@@ -247,7 +247,7 @@ def capture_result(ctx: Context, value: Any, *, load: str = "all", expect: str =
             return ValueError(str(exc))
 
     result = ctx.memo(("threephase-capture", value["sha256"], load, expect, tolerance_deg,
-                       min_current_fraction), run)
+                       min_current_fraction, name), run, shared=True)
     if isinstance(result, Exception):
         raise result
     return result
