@@ -63,7 +63,7 @@ def _entry_rows(n_jobs: int, per_job: int):
             yield j, (str(uuid.UUID(int=(j << 32) | k | (1 << 127))), items[k], "answer",
                       f"{230 + k % 9}", json.dumps(230.0 + k % 9), "V", None,
                       f"2026-03-{1 + j % 28:02d}T{8 + k // 60 % 10:02d}:{k % 60:02d}:00.000Z",
-                      "bench", "dev-bench", None)
+                      "bench", "dev-bench", None, None)
 
 
 def _fill(reg, n_jobs: int, per_job: int, say) -> None:
@@ -198,7 +198,7 @@ def _sync_vs_copy(ctx: Context, cluster, n_entries: int, repeats: int) -> Figure
             with psycopg.connect(url, autocommit=True) as bare:
                 bare.execute("CREATE TABLE bare_entries (uuid TEXT, item_id TEXT, action TEXT,"
                              " raw TEXT, value_json TEXT, unit_typed TEXT, serial TEXT,"
-                             " at TEXT, by TEXT, host TEXT, read_with TEXT)")
+                             " at TEXT, by TEXT, host TEXT, read_with TEXT, carried TEXT)")
                 t0 = time.perf_counter()
                 with bare.transaction(), bare.cursor() as cur, \
                         cur.copy("COPY bare_entries FROM STDIN") as copy:

@@ -132,7 +132,7 @@ def test_heads_after_a_batch_of_entries(engine_reg):
     entry and its latest amendment, whatever their order in the batch."""
     job = _new(engine_reg, "Larch House", installer="Ann")
     rows = [(f"00000000-0000-4000-8000-00000000000{n}", item, action, raw, json.dumps(raw),
-             None, None, at, "t", "dev-x", None)
+             None, None, at, "t", "dev-x", None, None)
             for n, (item, action, raw, at) in enumerate([
                 ("job.installer", "detail", "Cy", "2026-05-02T12:00:00.000Z"),
                 ("job.installer", "detail", "Ben", "2026-05-02T10:00:00.000Z"),

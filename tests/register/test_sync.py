@@ -173,7 +173,7 @@ def test_sync_twice_copies_nothing(tmp_path, pg_url):
 
 def _portable_rows(n: int) -> list[tuple]:
     return [(f"00000000-0000-4000-8000-{k:012d}", "supply.voltage", "answer", str(230 + k),
-             str(230.0 + k), "V", None, f"2026-05-02T10:00:{k:02d}.000Z", "t", "dev-x", None)
+             str(230.0 + k), "V", None, f"2026-05-02T10:00:{k:02d}.000Z", "t", "dev-x", None, None)
             for k in range(n)]
 
 
@@ -289,3 +289,36 @@ def test_sync_refuses_a_password_on_the_command_line(cli, pg_url):
     result = cli("sync", "--register", pg_url.replace("@", ":hunter2@", 1))
     assert result.exit_code == 2 and "PGPASSFILE" in result.stderr
     assert "hunter2" not in result.stderr
+
+
+def test_a_revisit_travels_whole(tmp_path, pg_url):
+    """What periodic inspection records beside the entries (a revisit job's baseline, an
+    imported job's record hash, the mark on an answer carried from the baseline) reaches
+    the office and the next laptop unchanged: the union of entries is not enough, a
+    revisit read elsewhere would lose what it is compared with."""
+    baseline = {"record_sha256": "ab" * 32, "job": "K3F2Q1", "status": "ready",
+                "verified": True, "visits": [{"supply.voltage": [231.0, "V"]}]}
+    with Register(tmp_path / "a.sqlite3") as a, Register(tmp_path / "b.sqlite3") as b:
+        loaded = load(CHECKLIST, checks=CHECKS)
+        job = a.create_job(loaded, {"site": "Larch House"}, baseline=baseline)
+        typed = a.add_entry(job, "supply.voltage", "answer", "233", 233.0)
+        carried = a.add_entry(job, "supply.earthing", "answer", "TN-C-S", "TN-C-S",
+                              carried="ab" * 32)
+        imported = a.insert_job(short_id="IMP001", uuid="00000000-0000-4000-8000-0000000000aa",
+                                created_at="2026-04-01T09:00:00.000Z", created_by="t",
+                                details={"site": "Quay Cottage"}, checklist=loaded,
+                                imported="2026-04-01T09:00:00.000Z", record_sha256="cd" * 32)
+        with PostgresRegister(pg_url) as office:
+            report = sync(a, office)
+            assert (report.jobs_pushed, report.entries_pushed) == (2, 2)
+            for uuid_ in (job.uuid, imported.uuid):
+                office.assign(office.find_job(uuid_), office.role())
+        with PostgresRegister(pg_url) as office:
+            assert sync(b, office).jobs_pulled == 2
+        with PostgresRegister(pg_url) as office:
+            for reg in (office, b):
+                there = reg.find_job(job.uuid)
+                assert there.baseline == baseline, reg.location
+                marks = {e.uuid: e.carried for e in reg.entries(there)}
+                assert marks == {typed.uuid: None, carried.uuid: "ab" * 32}, reg.location
+                assert reg.find_job(imported.uuid).record_sha256 == "cd" * 32, reg.location

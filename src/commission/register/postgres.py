@@ -65,12 +65,13 @@ _ADD_ENTRY = (
 # A sync's rows (sync.ENTRY_FIELDS: the instrument by serial) and their INSERT from the
 # session's sync_in table: a union by UUID, the instrument's id looked up here.
 _PORTABLE = ("uuid", "item_id", "action", "raw", "value_json", "unit_typed", "serial", "at",
-             "by", "host", "read_with")
+             "by", "host", "read_with", "carried")
 _SYNC_NEW = (
     "INSERT INTO entries (uuid, job_id, item_id, action, raw, value_json, unit_typed,"
-    " instrument_id, at, by, host, read_with)"
+    " instrument_id, at, by, host, read_with, carried)"
     " SELECT s.uuid, %s, s.item_id, s.action, s.raw, s.value_json, s.unit_typed, i.id, s.at,"
-    " s.by, s.host, s.read_with FROM sync_in s LEFT JOIN instruments i ON i.serial = s.serial")
+    " s.by, s.host, s.read_with, s.carried FROM sync_in s"
+    " LEFT JOIN instruments i ON i.serial = s.serial")
 # Rows that may already be here: each one's UUID is looked up first (a speculative insert:
 # about a quarter more server time than _SYNC_NEW on 10,000 entries). A sync sends only what
 # the register lacked when it looked, so it tries _SYNC_NEW first and falls back to this
@@ -543,7 +544,7 @@ class PostgresRegister:
     def entry_rows(self, job: Job, uuids: list[str]) -> list[tuple]:
         rows = self._x(
             "SELECT e.uuid, e.item_id, e.action, e.raw, e.value_json, e.unit_typed, i.serial,"
-            " e.at, e.by, e.host, e.read_with FROM entries e LEFT JOIN instruments i"
+            " e.at, e.by, e.host, e.read_with, e.carried FROM entries e LEFT JOIN instruments i"
             " ON i.id = e.instrument_id WHERE e.job_id = %s AND e.uuid = ANY(%s)"
             " ORDER BY e.at, e.uuid", (job.id, list(uuids))).fetchall()
         return [tuple(r) for r in rows]
@@ -560,7 +561,8 @@ class PostgresRegister:
         """The rows into this session's ``sync_in`` (emptied at every commit)."""
         cur.execute("CREATE TEMP TABLE IF NOT EXISTS sync_in (uuid TEXT, item_id TEXT,"
                     " action TEXT, raw TEXT, value_json TEXT, unit_typed TEXT, serial TEXT,"
-                    " at TEXT, by TEXT, host TEXT, read_with TEXT) ON COMMIT DELETE ROWS")
+                    " at TEXT, by TEXT, host TEXT, read_with TEXT, carried TEXT)"
+                    " ON COMMIT DELETE ROWS")
         with cur.copy(f"COPY sync_in ({', '.join(_PORTABLE)}) FROM STDIN") as copy:
             for r in rows:
                 copy.write_row(r)

@@ -742,7 +742,7 @@ class Register:
             part = uuids[start:start + 500]
             out += self.db.execute(
                 "SELECT e.uuid, e.item_id, e.action, e.raw, e.value_json, e.unit_typed,"
-                " i.serial, e.at, e.by, e.host, e.read_with FROM entries e LEFT JOIN"
+                " i.serial, e.at, e.by, e.host, e.read_with, e.carried FROM entries e LEFT JOIN"
                 " instruments i ON i.id = e.instrument_id WHERE e.job_id = ? AND e.uuid IN ("
                 + ",".join("?" * len(part)) + ")", (job.id, *part)).fetchall()
         return sorted(out, key=lambda r: (r[7], r[0]))
@@ -754,10 +754,10 @@ class Register:
         with self._transaction():
             cur = self.db.executemany(
                 "INSERT INTO entries (uuid, job_id, item_id, action, raw, value_json,"
-                " unit_typed, instrument_id, at, by, host, read_with)"
-                " VALUES (?,?,?,?,?,?,?,?,?,?,?,?) ON CONFLICT(uuid) DO NOTHING",
+                " unit_typed, instrument_id, at, by, host, read_with, carried)"
+                " VALUES (?,?,?,?,?,?,?,?,?,?,?,?,?) ON CONFLICT(uuid) DO NOTHING",
                 [(r[0], job.id, r[1], r[2], r[3], r[4], r[5], serials.get(r[6] or ""), r[7],
-                  r[8], r[9], r[10]) for r in rows])
+                  r[8], r[9], r[10], r[11]) for r in rows])
             return cur.rowcount  # rows inserted (the triggers' own changes not counted)
 
     def insert_entry_batches(self, job: Job, batches: Iterable[list[tuple]],

@@ -29,8 +29,9 @@ from typing import Any
 from .store import DETAIL_FIELDS, Job, now_iso
 
 # A portable entry row: the instrument by serial (ids are per register).
+# ``carried``: the baseline record's SHA-256 on an answer carried from it (a revisit).
 ENTRY_FIELDS = ("uuid", "item_id", "action", "raw", "value_json", "unit_typed", "serial",
-                "at", "by", "host", "read_with")
+                "at", "by", "host", "read_with", "carried")
 BATCH = 2000  # entries per transaction on the receiving side
 
 
@@ -95,12 +96,15 @@ def _copy_job(source, job: Job, target) -> Job:
         sha256=row["checklist_sha256"], text=row["checklist_text"],
         name=row["checklist_source"])
     recorded = json.loads(row["recorded"]) if row.get("recorded") else None
+    # a revisit's baseline and an imported job's record hash travel with the job
+    baseline = json.loads(row["baseline"]) if row.get("baseline") else None
     with target.batch():
         return target.insert_job(short_id=row["short_id"], uuid=row["uuid"],
                                  created_at=row["created_at"], created_by=row["created_by"],
                                  details={k: row[k] for k in DETAIL_FIELDS},
                                  checklist=checklist, imported=row.get("imported") or "",
-                                 recorded=recorded)
+                                 recorded=recorded, baseline=baseline,
+                                 record_sha256=row.get("record_sha256") or "")
 
 
 def _jobs(local, remote, installer: str, report: SyncReport, mark: Hook) -> list[tuple]:
