@@ -224,6 +224,26 @@ def test_entries_that_arrived_meanwhile_are_skipped_not_doubled(pg_url):
         assert sorted(uuids) == [r[0] for r in rows] and len(uuids) == len(set(uuids))
 
 
+def test_a_batch_interrupted_before_its_insert_leaves_nothing_open(pg_url):
+    """Interrupted after its rows went up (Ctrl-C, or a test's hook), a batch is rolled
+    back: nothing of it is kept and the connection is usable, outside any transaction."""
+    rows = _portable_rows(4)
+    with PostgresRegister(pg_url) as office:
+        job = office.create_job(load(CHECKLIST, checks=CHECKS), {"site": "Larch House"})
+
+        def hook(point: str) -> None:
+            if point == "inside entries":
+                raise KeyboardInterrupt
+
+        office.hook = hook
+        with pytest.raises(KeyboardInterrupt):
+            list(office.insert_entry_batches(job, iter([rows[:2], rows[2:]])))
+        office.hook = None
+        assert office.conn.info.transaction_status == psycopg.pq.TransactionStatus.IDLE
+        assert office.entries(job) == []
+        assert list(office.insert_entry_batches(job, iter([rows[:2], rows[2:]]))) == [2, 2]
+
+
 def test_a_laptop_read_failing_keeps_the_batch_already_sent(pg_url):
     """When reading the next batch fails, the batch already sent is committed and
     counted before the failure is raised."""

@@ -615,6 +615,9 @@ class PostgresRegister:
             except psycopg.Error as exc:
                 self._rollback()
                 raise _register_error(self.location, exc) from None
+            except BaseException:  # (a test's hook, an interrupt): nothing of it kept
+                self._rollback()
+                raise
             yield added
             following, failed = read or _read_next(source)
             if failed is not None:  # raised after this batch's outcome
