@@ -25,6 +25,7 @@ from .store import (
     CHUNK,
     CONFLICT_FIELDS,
     DETAIL_FIELDS,
+    EngineShared,
     Entry,
     Instrument,
     Job,
@@ -86,7 +87,7 @@ def _password_in(url: str) -> bool:
     return bool(parts.password) or "password" in {k.lower() for k in parse_qs(parts.query)}
 
 
-class PostgresRegister:
+class PostgresRegister(EngineShared):
     """A register on a PostgreSQL server, reached by a ``postgresql://`` URL."""
 
     def __init__(self, url: str, create: bool = True, connect_timeout: int | None = None):
@@ -111,9 +112,6 @@ class PostgresRegister:
         if self._conn is None:
             self.open()
         return self
-
-    def __exit__(self, *exc: object) -> None:
-        self.close()
 
     def open(self) -> None:
         import psycopg
@@ -320,16 +318,6 @@ class PostgresRegister:
     def jobs(self) -> list[Job]:
         return [self._job(r) for r in self._x(f"SELECT {_JOB_COLS} FROM jobs ORDER BY id")]
 
-    def amend(self, job: Job, changes: dict[str, str], by: str | None = None) -> list[Entry]:
-        out = []
-        for key, value in changes.items():
-            if key not in DETAIL_FIELDS:
-                raise UserError(f"{key}: not a job detail ({', '.join(DETAIL_FIELDS)})")
-            if job.details.get(key) == value:
-                continue
-            out.append(self.add_entry(job, f"job.{key}", "detail", value, value, by=by))
-        return out
-
     # -- entries ---------------------------------------------------------------
     def add_entry(self, job: Job, item_id: str, action: str, raw: str, value: Any = None,
                   unit_typed: str | None = None, instrument_id: int | None = None,
@@ -355,9 +343,6 @@ class PostgresRegister:
         rows = self._x(f"SELECT {_ENTRY_COLS} FROM entries WHERE job_id = %s {where}"
                        " ORDER BY at, uuid", (job_id,))
         return [_entry(r) for r in rows]
-
-    def entries(self, job: Job) -> list[Entry]:
-        return self._entries(job.id)
 
     def has_entry(self, uuid: str) -> bool:
         return self._x("SELECT 1 FROM entries WHERE uuid = %s", (uuid,)).fetchone() is not None
@@ -416,19 +401,6 @@ class PostgresRegister:
         row = self._x("SELECT profile_json FROM export_profiles WHERE instrument_id = %s",
                       (instrument_id,)).fetchone()
         return json.loads(row[0]) if row else None
-
-    def export_profile(self, serial: str):
-        from ..analyses import ReadSettings, SettingsError
-
-        inst = self.instrument_by_serial(serial)
-        data = self.export_profile_json(inst.id)
-        if data is None:
-            raise UserError(f"instrument '{serial}': has no export profile; save one with "
-                            f"'commission instruments profile {serial} --columns ...'")
-        try:
-            return ReadSettings.from_json(data)
-        except SettingsError as exc:
-            raise UserError(f"instrument '{serial}': stored export profile: {exc}") from None
 
     # -- files -------------------------------------------------------------------
     def put_file(self, path: Path) -> tuple[str, int]:

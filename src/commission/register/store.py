@@ -219,8 +219,47 @@ class Instrument:
         return parse_accuracy(self.accuracy, self.accuracy_read_as)
 
 
+class EngineShared:
+    """What both engines (this module's Register and postgres.PostgresRegister) do the
+    same way, written once over the primitives each engine has: close, add_entry,
+    _entries, instrument_by_serial and export_profile_json."""
+
+    def __exit__(self, *exc: object) -> None:
+        self.close()
+
+    def amend(self, job: Job, changes: dict[str, str], by: str | None = None) -> list[Entry]:
+        out = []
+        for key, value in changes.items():
+            if key not in DETAIL_FIELDS:
+                raise UserError(f"{key}: not a job detail ({', '.join(DETAIL_FIELDS)})")
+            if job.details.get(key) == value:
+                continue
+            out.append(self.add_entry(job, f"job.{key}", "detail", value, value, by=by))
+        return out
+
+    def entries(self, job: Job) -> list[Entry]:
+        """Every entry of a job, oldest first by (entry time, UUID), so the last of an item
+        is current on every engine and after entries from other devices came in."""
+        return self._entries(job.id)
+
+    def export_profile(self, serial: str):
+        """The export profile of an instrument as ReadSettings; none saved is a one-line
+        error naming the command that saves one."""
+        from ..analyses import ReadSettings, SettingsError
+
+        inst = self.instrument_by_serial(serial)
+        data = self.export_profile_json(inst.id)
+        if data is None:
+            raise UserError(f"instrument '{serial}': has no export profile; save one with "
+                            f"'commission instruments profile {serial} --columns ...'")
+        try:
+            return ReadSettings.from_json(data)
+        except SettingsError as exc:
+            raise UserError(f"instrument '{serial}': stored export profile: {exc}") from None
+
+
 @dataclass
-class Register:
+class Register(EngineShared):
     path: Path
     create: bool = True
     read_only: bool = field(default=False, init=False)  # this user cannot write the file
@@ -233,9 +272,6 @@ class Register:
         if self._db is None:
             self.open()
         return self
-
-    def __exit__(self, *exc: object) -> None:
-        self.close()
 
     def open(self) -> None:
         if not self.path.exists():
@@ -447,16 +483,6 @@ class Register:
     def jobs(self) -> list[Job]:
         return [self._job(r) for r in self.db.execute("SELECT * FROM jobs ORDER BY id")]
 
-    def amend(self, job: Job, changes: dict[str, str], by: str | None = None) -> list[Entry]:
-        out = []
-        for key, value in changes.items():
-            if key not in DETAIL_FIELDS:
-                raise UserError(f"{key}: not a job detail ({', '.join(DETAIL_FIELDS)})")
-            if job.details.get(key) == value:
-                continue
-            out.append(self.add_entry(job, f"job.{key}", "detail", value, value, by=by))
-        return out
-
     # -- entries -------------------------------------------------------------
     def add_entry(
         self,
@@ -509,11 +535,6 @@ class Register:
             " ORDER BY at, uuid",
             (job_id,))
         return [_entry(r) for r in rows]
-
-    def entries(self, job: Job) -> list[Entry]:
-        """Every entry of a job, oldest first by (entry time, UUID), so the last of an item
-        is current on every engine and after entries from other devices came in."""
-        return self._entries(job.id)
 
     # -- instruments ---------------------------------------------------------
     def add_instrument(self, serial: str, make: str, model: str,
@@ -572,20 +593,6 @@ class Register:
         row = self.db.execute("SELECT profile_json FROM export_profiles WHERE instrument_id = ?",
                               (instrument_id,)).fetchone()
         return json.loads(row[0]) if row else None
-
-    def export_profile(self, serial: str):
-        """The export profile of an instrument as ReadSettings (empty if none saved)."""
-        from ..analyses import ReadSettings, SettingsError
-
-        inst = self.instrument_by_serial(serial)
-        data = self.export_profile_json(inst.id)
-        if data is None:
-            raise UserError(f"instrument '{serial}': has no export profile; save one with "
-                            f"'commission instruments profile {serial} --columns ...'")
-        try:
-            return ReadSettings.from_json(data)
-        except SettingsError as exc:
-            raise UserError(f"instrument '{serial}': stored export profile: {exc}") from None
 
     # -- files and photos ----------------------------------------------------
     def put_file(self, path: Path) -> tuple[str, int]:
