@@ -239,6 +239,33 @@ def _verification(file: Path, trust: list[Path] | None, checklist: Path | None =
     return run(file, certs, checklist=named, strict=strict, read_anyway=read_anyway)
 
 
+def _record_to_take(file: Path, trust: list[Path] | None, unverified: bool, *,
+                    refused: str, hint: str, nothing: str):
+    """Verify a handover PDF before a command takes its record (import, revisit).
+
+    A failed verification stops it with exit 1 and nothing written, unless ``unverified``:
+    ``refused: NAME: problem (nothing written; hint)``. A record that cannot be read, or
+    whose checklist or entries failed, is never taken, even unverified: a one-line error
+    ending ``; nothing``. Returns the verification (its ``content.record`` is readable)."""
+    from ..errors import UserError
+    from ..record import safe
+
+    result = _verification(file, trust, read_anyway=unverified)
+    if not result.ok() and not unverified:
+        typer.echo(f"{refused}: {file.name}: {safe(result.first_problem())} (nothing "
+                   f"written; {hint})", err=True)
+        raise typer.Exit(1)
+    content = result.content
+    if content is None or content.record is None:
+        # no record, or one that cannot be read: never taken, even unverified
+        problem = result.first_problem() if content is None else content.problem
+        raise UserError(f"{file}: {problem}; {nothing}")
+    if content.failed_at in ("checklist", "entries") and content.problem and \
+            "claims a released version" not in content.problem:
+        raise UserError(f"{file}: {content.problem}; {nothing}")
+    return result
+
+
 def import_(
     file: Annotated[Path, typer.Argument(help="A handover PDF made by commission.")],
     unverified: Annotated[
@@ -251,24 +278,13 @@ def import_(
     register: RegisterOpt = None,
 ) -> None:
     """Restore the job inside a verified handover PDF into the register (same ids)."""
-    from ..errors import UserError
     from ..record import safe
     from ..report.restore import restore
 
-    result = _verification(file, trust, read_anyway=unverified)
-    if not result.ok() and not unverified:
-        typer.echo(f"not imported: {file.name}: {safe(result.first_problem())} (nothing "
-                   "written; --unverified imports it marked unverified)", err=True)
-        raise typer.Exit(1)
-    content = result.content
-    if content is None or content.record is None:
-        # no record, or one that cannot be read: never imported, even --unverified
-        problem = result.first_problem() if content is None else content.problem
-        raise UserError(f"{file}: {problem}; not imported")
-    if content.failed_at in ("checklist", "entries") and content.problem and \
-            "claims a released version" not in content.problem:
-        raise UserError(f"{file}: {content.problem}; not imported")
-    record = content.record
+    result = _record_to_take(file, trust, unverified, refused="not imported",
+                             hint="--unverified imports it marked unverified",
+                             nothing="not imported")
+    record = result.content.record
     from ..record import RECORD_NAME
     from ..report.signatures import open_pdf
     from ..report.source import opened

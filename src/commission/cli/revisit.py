@@ -55,24 +55,15 @@ def revisit(
         from ..record import RECORD_NAME, record_hash
         from ..report.signatures import open_pdf
         from ..report.verify import attachments
-        from .report import _verification
+        from .report import _record_to_take
 
-        result = _verification(path, trust, read_anyway=unverified)
-        if not result.ok() and not unverified:
-            typer.echo(f"not started: {path.name}: {safe(result.first_problem())} (nothing "
-                       "written; --unverified starts the revisit marked unverified)", err=True)
-            raise typer.Exit(1)
-        content = result.content
-        if content is None or content.record is None:
-            # no record, or one that cannot be read: never a baseline, even --unverified
-            problem = result.first_problem() if content is None else content.problem
-            raise UserError(f"{path}: {problem}; no revisit started")
+        # never a baseline from a record that cannot be read, even --unverified
+        result = _record_to_take(path, trust, unverified, refused="not started",
+                                 hint="--unverified starts the revisit marked unverified",
+                                 nothing="no revisit started")
         if not result.ok():
             problem = result.first_problem()
-            if content.failed_at in ("checklist", "entries") and \
-                    "claims a released version" not in (content.problem or ""):
-                raise UserError(f"{path}: {content.problem}; no revisit started")
-        record = content.record
+        record = result.content.record
         from ..report.source import opened
 
         with opened(path) as stream:
