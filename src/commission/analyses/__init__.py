@@ -224,14 +224,26 @@ def resolution_finding(values, *, unit: str, coarse: float, what: str) -> Findin
     return None
 
 
-from commission.analyses.capture import (  # noqa: E402
-    CAPTURE_STATES,
-    CaptureSettings,
-    analyse_capture,
-)
-from commission.analyses.heating import HeatingSettings, analyse_heating  # noqa: E402
-from commission.analyses.regulation import RegulationSettings, analyse_regulation  # noqa: E402
-from commission.analyses.soak import SoakSettings, analyse_soak  # noqa: E402
+# Each analysis is imported when first named (PEP 562), so a command that analyses one kind
+# of file loads only that kind's module.
+_LAZY = {
+    "CAPTURE_STATES": "capture", "CaptureSettings": "capture", "analyse_capture": "capture",
+    "HeatingSettings": "heating", "analyse_heating": "heating",
+    "RegulationSettings": "regulation", "analyse_regulation": "regulation",
+    "SoakSettings": "soak", "analyse_soak": "soak",
+}
+
+
+def __getattr__(name: str) -> Any:
+    module = _LAZY.get(name)
+    if module is None:
+        raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+    import importlib
+
+    value = getattr(importlib.import_module(f"{__name__}.{module}"), name)
+    globals()[name] = value
+    return value
+
 
 __all__ = [
     "CAPTURE_STATES",

@@ -21,19 +21,27 @@ class CaptureError(Exception):
         self.message = message
 
 
-from commission.captures.csv_capture import WaveformCapture, read_capture_csv  # noqa: E402
-from commission.captures.logs import (  # noqa: E402
-    GridPowerLog,
-    TemperatureLog,
-    read_heating_log,
-    read_regulation_log,
-    read_soak_log,
-)
-from commission.captures.wav_capture import (  # noqa: E402
-    WavCaptureStream,
-    open_capture_wav,
-    read_capture_wav,
-)
+# Each reader is imported when first named (PEP 562), so reading one kind of file loads only
+# that reader.
+_LAZY = {
+    "WaveformCapture": "csv_capture", "read_capture_csv": "csv_capture",
+    "GridPowerLog": "logs", "TemperatureLog": "logs", "read_heating_log": "logs",
+    "read_regulation_log": "logs", "read_soak_log": "logs",
+    "WavCaptureStream": "wav_capture", "open_capture_wav": "wav_capture",
+    "read_capture_wav": "wav_capture",
+}
+
+
+def __getattr__(name: str):
+    module = _LAZY.get(name)
+    if module is None:
+        raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+    import importlib
+
+    value = getattr(importlib.import_module(f"{__name__}.{module}"), name)
+    globals()[name] = value
+    return value
+
 
 __all__ = [
     "CaptureError",

@@ -7,8 +7,9 @@ values by ``value = (raw - offset) * scale``. Separator, decimal mark and metada
 above the header are found from the content (see ``_text``); lines starting with '#' are
 comments.
 
-The numbers are parsed by ``numpy.loadtxt`` in one pass; only when that fails is the file
-scanned again line by line to name the first bad row.
+The numbers are parsed by ``numpy.loadtxt`` in one pass (a large plain file in two halves
+at once, see ``_halves``); only when that fails is the file scanned again line by line to
+name the first bad row.
 """
 
 from __future__ import annotations
@@ -20,6 +21,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from commission.captures import CaptureError
+from commission.captures._halves import loadtxt_in_halves
 from commission.captures._text import (
     bad_row_message,
     clipping_warning,
@@ -190,6 +192,11 @@ def _load_numbers(table, indices, names):
                                   comments="#", skiprows=table.header_line, ndmin=2,
                                   dtype=float, quotechar='"')
             else:
+                data = loadtxt_in_halves(table.path, skiprows=table.header_line,
+                                         delimiter=table.delimiter, usecols=indices,
+                                         encoding=table.encoding)
+                if data is not None:
+                    return data
                 data = np.loadtxt(table.path, delimiter=table.delimiter, usecols=indices,
                                   comments="#", skiprows=table.header_line, ndmin=2,
                                   dtype=float, quotechar='"', encoding=table.encoding)
