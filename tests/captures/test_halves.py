@@ -80,6 +80,18 @@ def test_blank_and_comment_lines_in_the_second_half_are_the_childs_own(tmp_path)
     assert got.shape[0] == 2000
 
 
+def test_a_second_half_of_shorter_lines_than_the_first(tmp_path):
+    """More rows after the split than the first half's line length suggests."""
+    long = [f"{k:.9f},{k * 2:.9f},{k * 3:.9f}" for k in range(1000)]
+    short = [f"{k % 10},{k % 7},{k % 3}" for k in range(6000)]
+    path = _write(tmp_path, "t,v,i\n" + "\n".join(long + short) + "\n")
+    got = _halves_of(path, 1)
+    assert got is not None
+    assert np.array_equal(got, _one_pass(path, 1))
+    assert got.shape == (7000, 3)
+    assert all(got[:, k].flags.c_contiguous for k in range(3))
+
+
 @pytest.mark.parametrize("odd", ["", "# note", '"1.0",2,3', "\r"])
 def test_a_line_that_would_shift_the_split_means_one_pass(tmp_path, odd):
     rows = _rows(2000)
