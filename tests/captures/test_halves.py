@@ -19,6 +19,7 @@ from commission.captures import CaptureError, _halves, read_capture_csv
 pytestmark = pytest.mark.skipif(not _halves.ENABLED, reason="the split needs fork (Linux)")
 
 OPTIONS = dict(comments="#", ndmin=2, dtype=float, quotechar='"')
+DEFAULT_MIN_BYTES = _halves.MIN_BYTES
 
 
 @pytest.fixture(autouse=True)
@@ -156,7 +157,7 @@ _LINE_END = st.sampled_from(["\n", "\r\n", "\r"])
 _EXTRA = st.sampled_from(["", "# c", "  ", "1,2", '"3",4,5', "x,y,z"])
 
 
-@settings(max_examples=150, deadline=None,
+@settings(max_examples=80, deadline=None,
           suppress_health_check=[HealthCheck.function_scoped_fixture])
 @given(data=st.data())
 def test_split_or_one_pass_never_differ(tmp_path, data):
@@ -183,3 +184,40 @@ def test_split_or_one_pass_never_differ(tmp_path, data):
     if got is not None:
         assert got.shape == want.shape
         assert np.array_equal(got, want)
+
+
+def test_the_command_on_a_large_capture_reports_what_one_pass_gives(tmp_path):
+    """The console entry point (one BLAS thread, the default threshold) on a 3 MB capture,
+    split in two processes, prints the same figures as the library reading it in one
+    pass in this process."""
+    import json
+    import subprocess
+    import sys
+
+    from commission.analyses import CaptureSettings, analyse_capture
+
+    n = 120_000  # 12 s at 10 kS/s, about 3 MB
+    t = np.arange(n) / 10000.0
+    rng = np.random.default_rng(11)
+    v = 325.0 * np.sin(2 * np.pi * 50.01 * t) + rng.normal(0, 0.3, n)
+    i = 9.0 * np.sin(2 * np.pi * 50.01 * t - 0.2) + rng.normal(0, 0.01, n)
+    path = tmp_path / "big.csv"
+    with path.open("w") as fh:
+        fh.write("time_s,voltage_v,current_a\n")
+        np.savetxt(fh, np.column_stack([t, v, i]), fmt=("%.4f", "%.3f", "%.4f"), delimiter=",")
+    assert os.path.getsize(path) > DEFAULT_MIN_BYTES
+    assert _halves_of(path, 1) is not None  # the file is one the split takes
+    env = {k: v for k, v in os.environ.items() if not k.startswith("COMMISSION_")}
+    env.update(COMMISSION_HOME=str(tmp_path / "home"),
+               COMMISSION_REGISTER=str(tmp_path / "r.sqlite3"))
+    run = subprocess.run(
+        [sys.executable, "-c", "from commission.cli.app import run; run()",
+         "analyse", "capture", str(path), "--json"],
+        capture_output=True, text=True, env=env, timeout=120)
+    assert run.returncode == 0, run.stderr
+    printed = json.loads(run.stdout)
+    with pytest.MonkeyPatch.context() as mp:
+        mp.setattr(_halves, "ENABLED", False)
+        one_pass = analyse_capture(path, CaptureSettings()).as_json()
+    for key in ("cycles", "sample_rate_hz", "v_rms", "i_rms", "p_w", "frequency_hz"):
+        assert printed[key] == one_pass[key], key
