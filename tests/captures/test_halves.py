@@ -115,6 +115,18 @@ def test_below_the_threshold_or_disabled_means_one_pass(tmp_path, monkeypatch):
     assert _halves_of(path, 1) is None
 
 
+def test_no_fork_means_one_pass(tmp_path, monkeypatch):
+    path = _write(tmp_path, "t,v,i\n" + "\n".join(_rows(2000)) + "\n")
+
+    def refused():
+        raise BlockingIOError(11, "Resource temporarily unavailable")
+
+    monkeypatch.setattr(_halves.os, "fork", refused)
+    before = len(os.listdir("/proc/self/fd"))
+    assert _halves_of(path, 1) is None
+    assert len(os.listdir("/proc/self/fd")) == before  # the pipe was closed
+
+
 @pytest.mark.parametrize("where", [10, 1990])
 def test_a_bad_value_in_either_half_is_named_by_the_one_pass(tmp_path, monkeypatch, where):
     rows = _rows(2000)

@@ -73,12 +73,21 @@ def loadtxt_in_halves(path, *, skiprows, delimiter, usecols, encoding):
     import gzip  # noqa: F401
     import lzma  # noqa: F401
 
-    read_end, write_end = os.pipe()
-    with warnings.catch_warnings():
-        # Python 3.12+ warns about fork in a process with threads (numpy's BLAS pool); the
-        # child runs only the parser, which uses neither those threads nor their locks.
-        warnings.simplefilter("ignore", DeprecationWarning)
-        pid = os.fork()
+    try:
+        read_end, write_end = os.pipe()
+    except OSError:
+        return None
+    try:
+        with warnings.catch_warnings():
+            # Python 3.12+ warns about fork in a process with threads (numpy's BLAS pool);
+            # the child runs only the parser, which uses neither those threads nor their
+            # locks.
+            warnings.simplefilter("ignore", DeprecationWarning)
+            pid = os.fork()
+    except OSError:  # no processes left, or fork not allowed here
+        os.close(read_end)
+        os.close(write_end)
+        return None
     if pid == 0:  # the child: the second part, through the pipe, then exit
         _child(path, lines_before, options, write_end)
     os.close(write_end)
