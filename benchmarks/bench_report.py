@@ -18,6 +18,7 @@ readings; see ``benchmarks/_jobs.py``.
 
 from __future__ import annotations
 
+import dataclasses
 import gc
 import sys
 from io import BytesIO
@@ -224,6 +225,8 @@ def _verify(pdf: bytes) -> str:
     from commission.report.verify import verify
 
     result = verify(pdf)
-    if result.ok(True):
-        return "verifies (signer not in a trust store)"
-    return f"does NOT verify: {result.first_problem(True)}"
+    # The benchmark's throw-away signer is in no trust store: every other part must hold.
+    trusting = dataclasses.replace(result, trusted=True)
+    if trusting.ok():
+        return "verifies" if result.trusted else "verifies (signer not in a trust store)"
+    return f"does NOT verify: {trusting.first_problem()}"
