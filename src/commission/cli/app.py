@@ -196,13 +196,6 @@ def _main(argv: list[str] | None, debug: bool) -> int:
 
 
 def run() -> None:
-    """The console entry point."""
-    # One BLAS thread. On import, numpy's OpenBLAS starts a worker per processor that
-    # spin-waits for work before it sleeps, taking a processor from the command for about
-    # 0.1 s; the commands' matrix products are small and gain nothing from more threads
-    # (measured on a 2-processor machine: a 2-minute capture's analysis is 0.1 s faster in
-    # wall time). A value the person set is kept.
-    os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
     sys.exit(main())
 
 
