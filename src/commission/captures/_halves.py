@@ -79,9 +79,9 @@ def loadtxt_in_halves(path, *, skiprows, delimiter, usecols, encoding):
         return None
     try:
         with warnings.catch_warnings():
-            # Python 3.12+ warns about fork in a process with threads (numpy's BLAS pool);
-            # the child runs only the parser, which uses neither those threads nor their
-            # locks.
+            # Python 3.12+ warns about fork in a process with threads (a BLAS pool, where
+            # one was allowed); the child runs only the parser, which uses neither those
+            # threads nor their locks.
             warnings.simplefilter("ignore", DeprecationWarning)
             pid = os.fork()
     except OSError:  # no processes left, or fork not allowed here
