@@ -24,6 +24,8 @@ import math
 from dataclasses import dataclass, field, fields
 from typing import Any
 
+from commission.lazy import exports
+
 PASS, FAIL, REVIEW = "pass", "fail", "review"
 
 
@@ -234,16 +236,7 @@ _LAZY = {
 }
 
 
-def __getattr__(name: str) -> Any:
-    module = _LAZY.get(name)
-    if module is None:
-        raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
-    import importlib
-
-    value = getattr(importlib.import_module(f"{__name__}.{module}"), name)
-    globals()[name] = value
-    return value
-
+__getattr__ = exports(__name__, _LAZY)
 
 __all__ = [
     "CAPTURE_STATES",

@@ -12,6 +12,8 @@ converter readings at the rails, come back as warnings on the result.
 
 from __future__ import annotations
 
+from commission.lazy import exports
+
 
 class CaptureError(Exception):
     """A file the user gave cannot be read as a capture or log; the message says why."""
@@ -32,16 +34,7 @@ _LAZY = {
 }
 
 
-def __getattr__(name: str):
-    module = _LAZY.get(name)
-    if module is None:
-        raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
-    import importlib
-
-    value = getattr(importlib.import_module(f"{__name__}.{module}"), name)
-    globals()[name] = value
-    return value
-
+__getattr__ = exports(__name__, _LAZY)
 
 __all__ = [
     "CaptureError",
