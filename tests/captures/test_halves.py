@@ -153,9 +153,6 @@ def test_a_capture_reads_the_same_split_or_not(tmp_path, monkeypatch):
     real = _halves.loadtxt_in_halves
     monkeypatch.setattr(_halves, "loadtxt_in_halves",
                         lambda *a, **k: calls.append(1) or real(*a, **k))
-    import commission.captures.csv_capture as csv_capture
-
-    monkeypatch.setattr(csv_capture, "loadtxt_in_halves", _halves.loadtxt_in_halves)
     split = read_capture_csv(path)
     assert calls, "the split was not tried"
     monkeypatch.setattr(_halves, "ENABLED", False)
@@ -163,6 +160,41 @@ def test_a_capture_reads_the_same_split_or_not(tmp_path, monkeypatch):
     assert split.sample_rate_hz == whole.sample_rate_hz
     assert np.array_equal(split.voltage_v, whole.voltage_v)
     assert np.array_equal(split.current_a, whole.current_a)
+
+
+def test_a_decimal_comma_export_reads_the_same_by_name_or_in_memory(tmp_path, monkeypatch):
+    """A large ';' / decimal-comma export is converted into a temporary copy parsed by name
+    (and split); a small one is parsed from memory: the same samples either way, and the
+    copy is gone afterwards."""
+    import tempfile
+
+    n = 20000
+    t = np.arange(n) / 10000.0
+    v = 325.0 * np.sin(2 * np.pi * 50.0 * t)
+    i = 12.0 * np.sin(2 * np.pi * 50.0 * t - 0.1)
+    lines = [f"{a:.4f};{b:.3f};{c:.4f}".replace(".", ",")
+             for a, b, c in zip(t, v, i, strict=True)]
+    path = _write(tmp_path, "Logger;FE-2\ntime [s];U [V];I [A]\n" + "\n".join(lines) + "\n")
+    mine = f"commission-files-{os.getpid()}-"
+
+    def copies():
+        return {n for n in os.listdir(tempfile.gettempdir()) if n.startswith(mine)}
+
+    before = copies()
+    calls = []
+    real = _halves.loadtxt_in_halves
+    monkeypatch.setattr(_halves, "loadtxt_in_halves",
+                        lambda *a, **k: calls.append(a[0]) or real(*a, **k))
+    by_name = read_capture_csv(path)
+    assert calls and calls[0] != str(path), "the converted copy was not parsed by name"
+    assert copies() == before
+    monkeypatch.setattr(_halves, "MIN_BYTES", os.path.getsize(path) + 1)
+    in_memory = read_capture_csv(path)
+    assert np.array_equal(by_name.voltage_v, in_memory.voltage_v)
+    assert np.array_equal(by_name.current_a, in_memory.current_a)
+    assert by_name.sample_rate_hz == in_memory.sample_rate_hz
+    assert by_name.notes == in_memory.notes
+    assert np.allclose(by_name.voltage_v[:3], v[:3], atol=5e-4)
 
 
 _LINE_END = st.sampled_from(["\n", "\r\n", "\r"])

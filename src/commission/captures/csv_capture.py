@@ -15,13 +15,13 @@ name the first bad row.
 from __future__ import annotations
 
 import io
+import os
 import warnings
 from dataclasses import dataclass
 
 import numpy as np
 
-from commission.captures import CaptureError
-from commission.captures._halves import loadtxt_in_halves
+from commission.captures import CaptureError, _halves
 from commission.captures._text import (
     bad_row_message,
     clipping_warning,
@@ -186,24 +186,57 @@ def _load_numbers(table, indices, names):
                 # text buffer.
                 with open(table.path, "rb") as fh:
                     raw = fh.read().replace(b",", b".")
-                source = io.TextIOWrapper(io.BytesIO(raw), encoding=table.encoding,
-                                          errors="replace")
-                data = np.loadtxt(source, delimiter=table.delimiter, usecols=indices,
-                                  comments="#", skiprows=table.header_line, ndmin=2,
-                                  dtype=float, quotechar='"')
+                data = _converted_by_name(raw, table, indices) \
+                    if len(raw) >= _halves.MIN_BYTES else None
+                if data is None:
+                    source = io.TextIOWrapper(io.BytesIO(raw), encoding=table.encoding,
+                                              errors="replace")
+                    data = np.loadtxt(source, delimiter=table.delimiter, usecols=indices,
+                                      comments="#", skiprows=table.header_line, ndmin=2,
+                                      dtype=float, quotechar='"')
             else:
-                data = loadtxt_in_halves(table.path, skiprows=table.header_line,
-                                         delimiter=table.delimiter, usecols=indices,
-                                         encoding=table.encoding)
-                if data is not None:
-                    return data
-                data = np.loadtxt(table.path, delimiter=table.delimiter, usecols=indices,
-                                  comments="#", skiprows=table.header_line, ndmin=2,
-                                  dtype=float, quotechar='"', encoding=table.encoding)
+                data = _by_name(table.path, table, indices)
     except ValueError as exc:
         message = bad_row_message(table, indices, names)
         raise CaptureError(message or f"{table.source}: cannot read the numbers ({exc})") from None
     return data
+
+
+def _by_name(path, table, indices):
+    """The numbers of the file at ``path`` (laid out as ``table``), parsed by name: numpy's
+    fast path, in two processes where that is exact (``_halves``)."""
+    data = _halves.loadtxt_in_halves(path, skiprows=table.header_line,
+                                     delimiter=table.delimiter, usecols=indices,
+                                     encoding=table.encoding)
+    if data is not None:
+        return data
+    return np.loadtxt(path, delimiter=table.delimiter, usecols=indices, comments="#",
+                      skiprows=table.header_line, ndmin=2, dtype=float, quotechar='"',
+                      encoding=table.encoding)
+
+
+def _converted_by_name(raw, table, indices):
+    """A large decimal-comma file's converted text parsed by name, from a private
+    temporary copy (numpy reads a text stream line by line, a named file in C: about twice
+    as fast), or None when the copy cannot be written. The copy is removed at once; one
+    left by a killed process is swept with the register's file copies (same prefix)."""
+    import shutil
+    import tempfile
+
+    try:
+        folder = tempfile.mkdtemp(prefix=f"commission-files-{os.getpid()}-")
+    except OSError:
+        return None
+    try:
+        path = os.path.join(folder, "points.csv")
+        try:
+            with open(path, "wb") as out:
+                out.write(raw)
+        except OSError:
+            return None
+        return _by_name(path, table, indices)
+    finally:
+        shutil.rmtree(folder, ignore_errors=True)
 
 
 def check_capture_samples(source, rate, voltage, current, *, voltage_name="voltage_v",
