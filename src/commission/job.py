@@ -17,7 +17,7 @@ from typing import TYPE_CHECKING
 from .checklist import Loaded, parse
 from .checklist.model import Item
 from .checks import CHECKS
-from .checks.evaluate import Result, evaluate, job_status
+from .checks.evaluate import Incremental, Result, job_status
 from .register.protocol import RegisterEngine
 from .register.store import Entry, Instrument, Job
 
@@ -85,6 +85,7 @@ class JobState:
     entries: list[Entry] = field(init=False)
     files: FileStore = field(init=False)
     _results: tuple[int, list[Result]] | None = field(default=None, init=False, repr=False)
+    _incremental: Incremental = field(default_factory=Incremental, init=False, repr=False)
 
     def __post_init__(self) -> None:
         # The job keeps the checklist text it was made with: a changed file on disk
@@ -105,8 +106,9 @@ class JobState:
         (entries are append-only and every one goes through ``_append``)."""
         if self._results is None or self._results[0] != len(self.entries):
             self._results = (len(self.entries),
-                             evaluate(self.checklist, self.entries, self.instruments, self.files,
-                                      baseline=self.job.baseline or None))
+                             self._incremental.evaluate(
+                                 self.checklist, self.entries, self.instruments, self.files,
+                                 baseline=self.job.baseline or None))
         return self._results[1]
 
     def status(self, results: list[Result] | None = None) -> str:

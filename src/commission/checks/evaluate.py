@@ -97,59 +97,161 @@ def evaluate(
     current, history = current_entries(entries)
     pairs = checklist.items()
     by_id = {item.id: item for _, item in pairs}
+    applicable = _applicability(pairs, current, by_id)
+    since = _Since(checklist, current, baseline) if baseline else None
+    return [_result(section, item, current, history, applicable, checklist, files, by_id,
+                    instruments, since) for section, item in pairs]
+
+
+def _applicability(pairs, current: dict[str, Entry], by_id: dict[str, Item]) -> dict[str, bool]:
     applicable: dict[str, bool] = {}
     for _, item in pairs:
         applicable[item.id] = _applies(item, current, applicable, by_id)
+    return applicable
 
-    since = _Since(checklist, current, baseline) if baseline else None
-    results: list[Result] = []
-    for section, item in pairs:
-        entry = current.get(item.id)
-        base = {"item": item, "section": section.id, "entry": entry,
-                "history": history.get(item.id, []), "section_title": section.title}
-        if not applicable[item.id]:
-            assert item.when is not None
-            results.append(Result(**base, verdict=NA, applicable=False,
-                                  reason=f"not applicable: only when {item.when.text()}",
-                                  source=f"checklist condition on {item.when.item}"))
-            continue
-        if entry is None:
-            results.append(Result(**base, verdict=PENDING, reason="not answered yet",
-                                  source=_item_source(item, checklist)))
-            continue
-        if entry.action == "skip":
-            results.append(Result(**base, verdict=REVIEW, reason=f"skipped: {entry.raw}",
-                                  source=_item_source(item, checklist)))
-            continue
-        if entry.action == "na":
-            results.append(Result(**base, verdict=NA, reason=f"n/a: {entry.raw}",
-                                  source="installer's statement"))
-            continue
-        outcome = _judge(item, entry.value, current, applicable, checklist, files, by_id,
-                         instruments, getattr(entry, "read_with", None))
-        verdict, reason = outcome.verdict, outcome.reason
-        # An instrument's calibration speaks only for what it measured: a declared value
-        # (nameplate, setting, size) stamped by an older release is not judged by it.
-        inst = instruments.get(entry.instrument_id) \
-            if entry.instrument_id and item.is_measured else None
-        if inst is not None and entry.at[:10] > inst.calibration_due:
-            note = (f"instrument {inst.serial} was past its calibration due date "
-                    f"{inst.calibration_due} when this was taken")
-            if verdict != FAIL:
-                verdict = worst(verdict, REVIEW)
-                reason = f"{note}; {reason}"
-            else:
-                reason = f"{reason}; {note}"
-        change = since.judge(item, outcome, entry, history.get(item.id, [])) \
-            if since is not None else None
-        if change is not None:
-            if change.verdict == REVIEW and verdict != FAIL:
-                verdict = REVIEW
-            reason = f"{reason}; since the baseline: {change.reason}"
-        results.append(Result(**base, verdict=verdict, reason=reason, source=outcome.source,
-                              measured=outcome.measured, expected=outcome.expected,
-                              analysis=outcome.analysis, change=change))
-    return results
+
+def _result(section, item: Item, current: dict[str, Entry], history: dict[str, list[Entry]],
+            applicable: dict[str, bool], checklist: Checklist, files: Any,
+            by_id: dict[str, Item], instruments: dict[int, Instrument],
+            since: _Since | None) -> Result:
+    """One item's Result (see :func:`evaluate`)."""
+    entry = current.get(item.id)
+    base = {"item": item, "section": section.id, "entry": entry,
+            "history": history.get(item.id, []), "section_title": section.title}
+    if not applicable[item.id]:
+        assert item.when is not None
+        return Result(**base, verdict=NA, applicable=False,
+                      reason=f"not applicable: only when {item.when.text()}",
+                      source=f"checklist condition on {item.when.item}")
+    if entry is None:
+        return Result(**base, verdict=PENDING, reason="not answered yet",
+                      source=_item_source(item, checklist))
+    if entry.action == "skip":
+        return Result(**base, verdict=REVIEW, reason=f"skipped: {entry.raw}",
+                      source=_item_source(item, checklist))
+    if entry.action == "na":
+        return Result(**base, verdict=NA, reason=f"n/a: {entry.raw}",
+                      source="installer's statement")
+    outcome = _judge(item, entry.value, current, applicable, checklist, files, by_id,
+                     instruments, getattr(entry, "read_with", None))
+    verdict, reason = outcome.verdict, outcome.reason
+    # An instrument's calibration speaks only for what it measured: a declared value
+    # (nameplate, setting, size) stamped by an older release is not judged by it.
+    inst = instruments.get(entry.instrument_id) \
+        if entry.instrument_id and item.is_measured else None
+    if inst is not None and entry.at[:10] > inst.calibration_due:
+        note = (f"instrument {inst.serial} was past its calibration due date "
+                f"{inst.calibration_due} when this was taken")
+        if verdict != FAIL:
+            verdict = worst(verdict, REVIEW)
+            reason = f"{note}; {reason}"
+        else:
+            reason = f"{reason}; {note}"
+    change = since.judge(item, outcome, entry, history.get(item.id, [])) \
+        if since is not None else None
+    if change is not None:
+        if change.verdict == REVIEW and verdict != FAIL:
+            verdict = REVIEW
+        reason = f"{reason}; since the baseline: {change.reason}"
+    return Result(**base, verdict=verdict, reason=reason, source=outcome.source,
+                  measured=outcome.measured, expected=outcome.expected,
+                  analysis=outcome.analysis, change=change)
+
+
+class Incremental:
+    """One job's verdicts kept between evaluations (job.JobState, the walk): after new
+    entries only the items they can change are judged again, the rest keep their Result.
+
+    An item's Result is a function of its own entries, of the entries and applicability
+    of the items its check reads, of its condition's item (and so on along conditions),
+    and of the checklist, instruments, files and baseline. So the items to judge again
+    after new entries are the answered items and, transitively, every item whose check
+    input or condition names one of them or one whose applicability changed. Anything
+    else (other entries, instruments, files, checklist or baseline; a revisit's
+    temperature) means a full evaluation, which is also what the first call does.
+    ``tests/checks/test_evaluate_memo.py`` compares every step with a fresh evaluation.
+    """
+
+    def __init__(self) -> None:
+        self._context: tuple | None = None
+        self._seen = 0
+        self._last: Entry | None = None
+        self._results: dict[str, Result] = {}
+        self._current: dict[str, Entry] = {}
+        self._history: dict[str, list[Entry]] = {}
+        self._applicable: dict[str, bool] = {}
+        self._dependents: dict[str, set[str]] = {}
+
+    def evaluate(self, checklist: Checklist, entries: list[Entry],
+                 instruments: dict[int, Instrument], files: Any = None,
+                 baseline: dict[str, Any] | None = None) -> list[Result]:
+        context = (checklist, files, baseline, dict(instruments))
+        fresh = entries[self._seen:]
+        if (self._context is None or self._context != context or len(entries) < self._seen
+                or (self._seen and entries[self._seen - 1] is not self._last)
+                or self._temperature_in(checklist, baseline, fresh)):
+            return self._full(checklist, entries, instruments, files, baseline, context)
+        pairs = checklist.items()
+        if not fresh:
+            return [self._results[item.id] for _, item in pairs]
+        changed: set[str] = set()
+        for e in fresh:
+            if e.action == "detail":
+                continue
+            self._current[e.item_id] = e
+            # a new list: the Result made before keeps the history it was made with
+            self._history[e.item_id] = [*self._history.get(e.item_id, []), e]
+            changed.add(e.item_id)
+        by_id = {item.id: item for _, item in pairs}
+        applicable = _applicability(pairs, self._current, by_id)
+        # (the conditions graph reaches these already; kept so that applicability, which
+        # the full pass works out in walk order, can never differ from it unseen)
+        changed |= {k for k, v in applicable.items() if self._applicable.get(k) != v}
+        again = self._closure(changed)
+        since = _Since(checklist, self._current, baseline) if baseline else None
+        for section, item in pairs:
+            if item.id in again:
+                self._results[item.id] = _result(section, item, self._current, self._history,
+                                                 applicable, checklist, files, by_id,
+                                                 instruments, since)
+        self._applicable = applicable
+        self._seen, self._last = len(entries), entries[-1]
+        return [self._results[item.id] for _, item in pairs]
+
+    def _full(self, checklist, entries, instruments, files, baseline, context):
+        results = evaluate(checklist, entries, instruments, files, baseline)
+        self._context = context
+        self._seen, self._last = len(entries), (entries[-1] if entries else None)
+        self._results = {r.item.id: r for r in results}
+        self._current, self._history = current_entries(entries)
+        pairs = checklist.items()
+        self._applicable = _applicability(pairs, self._current,
+                                          {item.id: item for _, item in pairs})
+        self._dependents = {}
+        for _, item in pairs:
+            named = [item.when.item] if item.when is not None else []
+            if item.check is not None:
+                named += [s for s in item.check.inputs.values() if isinstance(s, str)]
+            for ref in named:
+                self._dependents.setdefault(ref, set()).add(item.id)
+        return results
+
+    def _closure(self, changed: set[str]) -> set[str]:
+        again = set(changed)
+        todo = list(changed)
+        while todo:
+            for dependent in self._dependents.get(todo.pop(), ()):
+                if dependent not in again:
+                    again.add(dependent)
+                    todo.append(dependent)
+        return again
+
+    @staticmethod
+    def _temperature_in(checklist: Checklist, baseline, fresh: list[Entry]) -> bool:
+        """A revisit's temperature reading enters every change judgment."""
+        rv = checklist.revisit
+        return bool(baseline) and rv is not None and bool(rv.temperature) and any(
+            e.item_id == rv.temperature for e in fresh)
 
 
 class _Since:
