@@ -6,6 +6,7 @@ text a reader sees in the record).
 
 from __future__ import annotations
 
+import re
 import subprocess
 
 import pytest
@@ -32,6 +33,12 @@ def test_three_phase_demo_is_walked_signed_and_verified(cli, tmp_path):
     for item in ("supply.l2n", "supply.l3l1", "element.l3.cold_resistance", "clamp.capture"):
         assert item in text, item
     assert "clamp 2 is on L2 and the right way round" in " ".join(text.split())
+    # the per-phase tables' heads and verdicts are printed whole (a narrow column once
+    # broke "Phase" into "Phas" / "e")
+    layout = subprocess.run(["pdftotext", "-layout", str(pdf), "-"], capture_output=True,
+                            text=True, timeout=60).stdout
+    assert re.search(r"\bPhase +Item\b", layout)
+    assert not re.search(r"\b(Phas|recorde|revie|pendin)\b", layout)
 
 
 def test_unknown_demo_scenario_is_one_line(cli, tmp_path):

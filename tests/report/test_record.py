@@ -69,6 +69,19 @@ def test_pdftotext_finds_status_values_sign_convention_and_cautions(demo):
     assert text.count(digest) == pages  # every page footer carries the record hash
 
 
+def test_verdict_words_are_never_broken_across_lines(demo):
+    """Each verdict is printed whole in its column (a narrow column once broke "recorded"
+    into "recorde" / "d")."""
+    need_tool("pdftotext")
+    text = _run("pdftotext", "-layout", demo["pdf"], "-").stdout
+    assert "recorded" in text and "pass" in text
+    # no word cut one or two letters short ("recorde", "pendin", "revie"; not "record",
+    # which the record's own text uses) stands alone anywhere
+    for head in ("recorde", "recor", "pendin", "pendi", "revie", "revi"):
+        broken = re.findall(rf"(?<![\w-]){head}(?![\w-])", text)
+        assert not broken, f"a verdict broken after {head!r}"
+
+
 def test_every_page_renders(demo, tmp_path):
     need_tool("pdftoppm")
     result = _run("pdftoppm", "-r", "30", "-png", demo["pdf"], tmp_path / "page")

@@ -464,7 +464,9 @@ def _results(c: _Context) -> list:
            _p(SIGN_CONVENTION + " ! marks a critical item: it must pass before handover. "
               "'Figure' is what the check derived or predicted from the answer.",
               c.st["small"])]
-    widths = [124, 78, 44, 58, 46, 130]
+    # the Verdict column fits its longest word, "recorded" (40.4 pt in bold 8 pt, plus
+    # 6 pt of padding), on one line
+    widths = [124, 78, 44, 58, 48, 128]
     sections: dict[str, list[Result]] = {}
     for r in c.results:
         sections.setdefault(r.section, []).append(r)
@@ -513,7 +515,7 @@ def _phases(c: _Context) -> list:
     out = [_p(c.heading("phases", "Per phase"), c.st["h1"]),
            _p(SIGN_CONVENTION + " One table per measurement, one row per phase; every row "
               "also appears with its section below.", c.st["small"])]
-    widths = [30, 100, 64, 44, 48, 44, 150]
+    widths = [34, 100, 64, 44, 48, 48, 142]  # "Phase" and the verdicts on one line
     for title, members in groups.items():
         rows: list = [[_p(title, c.st["h2"])] + [""] * 6,
                       [_p(h, c.st["cellb"]) for h in
