@@ -169,7 +169,8 @@ class Incremental:
     input or condition names one of them or one whose applicability changed. Anything
     else (other entries, instruments, files, checklist or baseline; a revisit's
     temperature) means a full evaluation, which is also what the first call does.
-    ``tests/checks/test_evaluate_memo.py`` compares every step with a fresh evaluation.
+    ``tests/checks/test_incremental_evaluation.py`` compares every step with a fresh
+    evaluation.
     """
 
     def __init__(self) -> None:
@@ -191,9 +192,9 @@ class Incremental:
                 or (self._seen and entries[self._seen - 1] is not self._last)
                 or self._temperature_in(checklist, baseline, fresh)):
             return self._full(checklist, entries, instruments, files, baseline, context)
-        pairs = checklist.items()
         if not fresh:
-            return [self._results[item.id] for _, item in pairs]
+            return [self._results[item.id] for _, item in checklist.items()]
+        self._context = None  # kept only once the new entries are judged
         changed: set[str] = set()
         for e in fresh:
             if e.action == "detail":
@@ -202,12 +203,41 @@ class Incremental:
             # a new list: the Result made before keeps the history it was made with
             self._history[e.item_id] = [*self._history.get(e.item_id, []), e]
             changed.add(e.item_id)
+        results = self._judge_again(checklist, changed, instruments, files, baseline)
+        self._context = context
+        self._seen, self._last = len(entries), entries[-1]
+        return results
+
+    def _full(self, checklist, entries, instruments, files, baseline, context):
+        self._context = None  # kept only once every item is judged
+        self._current, self._history = current_entries(entries)
+        self._results, self._applicable = {}, {}
+        self._dependents = {}
+        for _, item in checklist.items():
+            named = [item.when.item] if item.when is not None else []
+            if item.check is not None:
+                named += [s for s in item.check.inputs.values() if isinstance(s, str)]
+            for ref in named:
+                self._dependents.setdefault(ref, set()).add(item.id)
+        results = self._judge_again(checklist, None, instruments, files, baseline)
+        self._context = context
+        self._seen, self._last = len(entries), (entries[-1] if entries else None)
+        return results
+
+    def _judge_again(self, checklist, changed: set[str] | None, instruments, files,
+                     baseline) -> list[Result]:
+        """The steps of :func:`evaluate` over the kept entries, for the items ``changed``
+        and every item that reads them (every item when ``changed`` is None)."""
+        pairs = checklist.items()
         by_id = {item.id: item for _, item in pairs}
         applicable = _applicability(pairs, self._current, by_id)
-        # (the conditions graph reaches these already; kept so that applicability, which
-        # the full pass works out in walk order, can never differ from it unseen)
-        changed |= {k for k, v in applicable.items() if self._applicable.get(k) != v}
-        again = self._closure(changed)
+        if changed is None:
+            again = set(by_id)
+        else:
+            # (the conditions graph reaches these already; kept so that applicability,
+            # which is worked out in walk order, can never differ from a full pass unseen)
+            changed |= {k for k, v in applicable.items() if self._applicable.get(k) != v}
+            again = self._closure(changed)
         since = _Since(checklist, self._current, baseline) if baseline else None
         for section, item in pairs:
             if item.id in again:
@@ -215,26 +245,7 @@ class Incremental:
                                                  applicable, checklist, files, by_id,
                                                  instruments, since)
         self._applicable = applicable
-        self._seen, self._last = len(entries), entries[-1]
         return [self._results[item.id] for _, item in pairs]
-
-    def _full(self, checklist, entries, instruments, files, baseline, context):
-        results = evaluate(checklist, entries, instruments, files, baseline)
-        self._context = context
-        self._seen, self._last = len(entries), (entries[-1] if entries else None)
-        self._results = {r.item.id: r for r in results}
-        self._current, self._history = current_entries(entries)
-        pairs = checklist.items()
-        self._applicable = _applicability(pairs, self._current,
-                                          {item.id: item for _, item in pairs})
-        self._dependents = {}
-        for _, item in pairs:
-            named = [item.when.item] if item.when is not None else []
-            if item.check is not None:
-                named += [s for s in item.check.inputs.values() if isinstance(s, str)]
-            for ref in named:
-                self._dependents.setdefault(ref, set()).add(item.id)
-        return results
 
     def _closure(self, changed: set[str]) -> set[str]:
         again = set(changed)
