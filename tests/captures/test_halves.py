@@ -34,8 +34,9 @@ def _one_pass(path, skiprows, delimiter=",", usecols=(0, 1, 2), encoding="utf-8-
 
 
 def _halves_of(path, skiprows, delimiter=",", usecols=(0, 1, 2), encoding="utf-8-sig"):
-    return _halves.loadtxt_in_halves(path, skiprows=skiprows, delimiter=delimiter,
-                                     usecols=list(usecols), encoding=encoding)
+    return _halves.loadtxt_in_halves(
+        path, skiprows=skiprows,
+        options=dict(delimiter=delimiter, usecols=list(usecols), encoding=encoding, **OPTIONS))
 
 
 def _rows(n, seed=3):

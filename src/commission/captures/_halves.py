@@ -38,11 +38,13 @@ def _processors() -> int:
         return os.cpu_count() or 1
 
 
-def loadtxt_in_halves(path, *, skiprows, delimiter, usecols, encoding):
-    """``numpy.loadtxt(path, ...)`` of a float table in two processes, or None.
+def loadtxt_in_halves(path, *, skiprows, options):
+    """``numpy.loadtxt(path, skiprows=skiprows, **options)`` of a float table in two
+    processes, or None.
 
-    Parameters are those of the one-pass call in ``csv_capture._load_numbers``; the result
-    is identical to it (same rows, same values, shape ``(rows, len(usecols))``; each
+    ``options`` are the one-pass call's own (``csv_capture._loadtxt_options``: they name
+    the ``usecols``, a list of column indices); the result is identical to that call
+    (same rows, same values, shape ``(rows, len(usecols))``; each
     column contiguous in memory, so ``numpy.ascontiguousarray`` of one copies nothing). None means
     "parse it in one pass": the split is not safe for this file, not worth it, or failed.
     """
@@ -64,9 +66,8 @@ def loadtxt_in_halves(path, *, skiprows, delimiter, usecols, encoding):
     rows1 = lines_before - skiprows
     if rows1 < 1:
         return None
+    usecols = options["usecols"]
     ncols = len(usecols)
-    options = dict(delimiter=delimiter, usecols=usecols, comments="#", ndmin=2, dtype=float,
-                   quotechar='"', encoding=encoding)
     # numpy opens a named file through these modules: imported here, not first in the
     # child, so the child imports nothing
     import bz2  # noqa: F401

@@ -191,9 +191,8 @@ def _load_numbers(table, indices, names):
                 if data is None:
                     source = io.TextIOWrapper(io.BytesIO(raw), encoding=table.encoding,
                                               errors="replace")
-                    data = np.loadtxt(source, delimiter=table.delimiter, usecols=indices,
-                                      comments="#", skiprows=table.header_line, ndmin=2,
-                                      dtype=float, quotechar='"')
+                    data = np.loadtxt(source, skiprows=table.header_line,
+                                      **_loadtxt_options(table, indices))
             else:
                 data = _by_name(table.path, table, indices)
     except ValueError as exc:
@@ -202,17 +201,21 @@ def _load_numbers(table, indices, names):
     return data
 
 
+def _loadtxt_options(table, indices, **more):
+    """``numpy.loadtxt``'s options for the number columns ``indices`` of ``table``: one
+    set for every parse of them (from memory, by name, in two halves)."""
+    return dict(delimiter=table.delimiter, usecols=list(indices), comments="#", ndmin=2,
+                dtype=float, quotechar='"', **more)
+
+
 def _by_name(path, table, indices):
     """The numbers of the file at ``path`` (laid out as ``table``), parsed by name: numpy's
     fast path, in two processes where that is exact (``_halves``)."""
-    data = _halves.loadtxt_in_halves(path, skiprows=table.header_line,
-                                     delimiter=table.delimiter, usecols=indices,
-                                     encoding=table.encoding)
+    options = _loadtxt_options(table, indices, encoding=table.encoding)
+    data = _halves.loadtxt_in_halves(path, skiprows=table.header_line, options=options)
     if data is not None:
         return data
-    return np.loadtxt(path, delimiter=table.delimiter, usecols=indices, comments="#",
-                      skiprows=table.header_line, ndmin=2, dtype=float, quotechar='"',
-                      encoding=table.encoding)
+    return np.loadtxt(path, skiprows=table.header_line, **options)
 
 
 def _converted_by_name(raw, table, indices):
