@@ -285,14 +285,12 @@ def import_(
                              hint="--unverified imports it marked unverified",
                              nothing="not imported")
     record = result.content.record
-    from ..record import RECORD_NAME
     from ..report.signatures import open_pdf
     from ..report.source import opened
     from ..report.verify import attachments
 
     with opened(file) as stream:
         attached = attachments(open_pdf(stream)[0])
-        payload = attached.get(RECORD_NAME)  # its hash names the record to a later revisit
         files = {}
         for meta in record.files:
             try:
@@ -300,10 +298,9 @@ def import_(
             except KeyError:
                 continue
     state = "verified" if result.ok() else "unverified"
-    from ..record import record_hash
-
+    # the record's hash names it to a later revisit
     short, restored = restore(register, record, files, imported=state,
-                              record_sha256=record_hash(payload) if payload else "")
+                              record_sha256=result.content.record_sha256 or "")
     if state == "unverified":
         typer.echo(f"imported UNVERIFIED ({safe(result.first_problem())})")
     typer.echo(f"imported job {safe(short)} with {len(record.entries)} entries and "

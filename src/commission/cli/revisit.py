@@ -52,9 +52,6 @@ def revisit(
     except OSError:  # e.g. a name too long for a file: then it is a job id
         a_file = False
     if a_file:
-        from ..record import RECORD_NAME, record_hash
-        from ..report.signatures import open_pdf
-        from ..report.verify import attachments
         from .report import _record_to_take
 
         # never a baseline from a record that cannot be read, even --unverified
@@ -64,11 +61,7 @@ def revisit(
         if not result.ok():
             problem = result.first_problem()
         record = result.content.record
-        from ..report.source import opened
-
-        with opened(path) as stream:
-            payload = attachments(open_pdf(stream)[0])[RECORD_NAME]
-        sha = record_hash(payload)
+        sha = result.content.record_sha256
         base = baseline_of(record, sha, verified=result.ok() and not record.job.unverified)
         details = details_of(record)
         carried = carried_answers(loaded.checklist, record_checklist(record),

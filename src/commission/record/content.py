@@ -75,6 +75,7 @@ class ContentResult:
     check_logic: tuple[int | None, int] = (None, 0)
     program_version: str | None = None
     unverified_import: bool = False
+    record_sha256: str | None = None  # of the record's bytes as embedded (set by verify)
     results: list[Any] | None = None  # the re-evaluated results (for the page checks)
     # where the first failure was found: read (bytes, schema), checklist, entries, files,
     # verdicts; a record that fails at read or entries cannot even be imported unverified

@@ -300,6 +300,7 @@ def _verify(stream, extra_trust, checklist, strict: bool, read_anyway: bool) -> 
     # The content is verified through the record package (schema, checklist, raw text,
     # files, re-evaluation); signatures and integrity are checked above.
     content = rec.verify_content(payload, files, checklist_override=checklist, strict=strict)
+    content.record_sha256 = digest  # names the record to a later import or revisit
     v.content = content
     v.content_ok = content.ok
     v.record = content.data
